@@ -1,0 +1,26 @@
+import type { OpenAPIHono } from "@hono/zod-openapi";
+import type { Database } from "../db/client.ts";
+
+export type TokenRole = "read" | "write" | "admin";
+
+/** Who is calling: set by the auth middleware on every /api/v1 route. */
+export interface AuthContext {
+  readonly workspaceId: number;
+  readonly workspaceName: string;
+  readonly tokenId: number;
+  readonly role: TokenRole;
+}
+
+export interface AppEnv {
+  Variables: {
+    auth: AuthContext;
+    requestId: string;
+  };
+}
+
+/** What createApp is given; passed on to every route module. */
+export interface AppDeps {
+  readonly db: Database;
+}
+
+export type ApiRouter = OpenAPIHono<AppEnv>;
