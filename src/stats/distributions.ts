@@ -11,6 +11,7 @@ interface JStatLike {
   normal: { inv(p: number, mean: number, sd: number): number };
   studentt: { cdf(x: number, df: number): number; inv(p: number, df: number): number };
   noncentralt: { cdf(x: number, df: number, ncp: number): number };
+  chisquare: { cdf(x: number, df: number): number };
 }
 
 const inverseSqrtTwoPi = 0.3989422804014327;
@@ -65,4 +66,11 @@ export function studentTQuantile(p: number, df: number): number {
 export function noncentralTCdf(x: number, df: number, ncp: number): number {
   if (!(df > 0)) return Number.NaN;
   return jStat.noncentralt.cdf(x, df, ncp);
+}
+
+/** Upper tail of the chi-square distribution, P(X > x) with df degrees of freedom. */
+export function chiSquareSurvival(x: number, df: number): number {
+  if (!(df > 0) || Number.isNaN(x)) return Number.NaN;
+  if (x <= 0) return 1;
+  return 1 - jStat.chisquare.cdf(x, df);
 }
