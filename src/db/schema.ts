@@ -194,6 +194,13 @@ export const plannedTests = sqliteTable(
     nPerArm: integer("n_per_arm"),
     runDays: real("run_days"),
     arms: integer("arms").notNull().default(2),
+    /** Baseline rate of a binary metric, for the planned SE sqrt(2 (1-p) / (n p)) (statistics.md sec. 7). */
+    baselineRate: real("baseline_rate"),
+    /** Baseline mean and per-user sd of a continuous metric, for the planned SE (sd/m) sqrt(2/n). */
+    baselineMean: real("baseline_mean"),
+    baselineSd: real("baseline_sd"),
+    /** The planned standard error of the relative lift, when the team states it directly. */
+    standardError: real("standard_error"),
     /** Optional team-specific assumed prior, as JSON {winRate, lossRate?, effectScale, shape?}. */
     priorOverride: text("prior_override", { mode: "json" }).$type<{
       winRate: number;
