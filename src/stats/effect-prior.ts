@@ -1,7 +1,7 @@
 /**
  * The distribution of true effects (relative lifts) across a program's ideas: a weighted
  * mixture of simple components. Fitted priors (fitEffectPrior) use point, normal and uniform
- * components; assumed priors (assumedPrior) use a null point mass with half-normal or half-t
+ * components (their posteriors add truncated normals); assumed priors (assumedPrior) use a null point mass with half-normal or half-t
  * sizes of real wins and losses (statistics.md sections 5 and 7).
  */
 export type PriorComponent =
@@ -14,7 +14,18 @@ export type PriorComponent =
   /** |theta| half-normal with the given scale, on the side of `sign`. */
   | { readonly kind: "halfNormal"; readonly sign: 1 | -1; readonly scale: number }
   /** |theta| half-t with df degrees of freedom and the given scale, on the side of `sign`. */
-  | { readonly kind: "halfT"; readonly sign: 1 | -1; readonly scale: number; readonly df: number };
+  | { readonly kind: "halfT"; readonly sign: 1 | -1; readonly scale: number; readonly df: number }
+  /**
+   * N(mean, scale^2) restricted to [lower, upper] (bounds may be infinite). The exact posterior of
+   * a uniform prior component under a normal likelihood (statistics.md section 5).
+   */
+  | {
+      readonly kind: "truncatedNormal";
+      readonly mean: number;
+      readonly scale: number;
+      readonly lower: number;
+      readonly upper: number;
+    };
 
 export interface WeightedComponent {
   readonly component: PriorComponent;
