@@ -1,0 +1,137 @@
+/**
+ * `plumbline serve [--port N] [--demo]`: starts the HTTP API on the database named by
+ * PLUMBLINE_DATABASE_URL. With --demo it first creates or refreshes the demo workspace and prints
+ * a read token for it, so that a newcomer has something to look at straight away.
+ */
+import { parseArgs } from "node:util";
+import { issueToken } from "../../api/tokens.ts";
+import { ConfigError, loadConfig } from "../../config.ts";
+import { createDb, type Database } from "../../db/client.ts";
+import { startServer } from "../../server.ts";
+import type { CommandIo } from "../io.ts";
+
+export const summary = "start the HTTP API (--demo: load the demo workspace first and print a token)";
+
+const help = `Usage: plumbline serve [--port N] [--host H] [--demo] [--json]
+
+Starts the HTTP API on the database named by PLUMBLINE_DATABASE_URL
+(default file:./data/plumbline.db) and keeps running until interrupted.
+
+  --port N   port to listen on (default: PORT, else 8080)
+  --host H   address to bind (default: all interfaces)
+  --demo     create or refresh the demo workspace first and print a read token for it
+  --json     print one JSON document {url, workspace?, token?} once listening`;
+
+/** Resolves when the process is asked to stop; tests pass their own. */
+export interface ServeControl {
+  readonly stopped: Promise<void>;
+}
+
+export async function run(args: string[], io: CommandIo, control?: ServeControl): Promise<number> {
+  let values: { port?: string; host?: string; demo?: boolean; json?: boolean; help?: boolean };
+  try {
+    ({ values } = parseArgs({
+      args,
+      strict: true,
+      allowPositionals: false,
+      options: {
+        port: { type: "string" },
+        host: { type: "string" },
+        demo: { type: "boolean" },
+        json: { type: "boolean" },
+        help: { type: "boolean", short: "h" },
+      },
+    }));
+  } catch (error) {
+    io.err(`plumbline serve: ${(error as Error).message}\n\n${help}`);
+    return 2;
+  }
+  if (values.help) {
+    io.out(help);
+    return 0;
+  }
+
+  let config: ReturnType<typeof loadConfig>;
+  try {
+    config = loadConfig(values.port !== undefined ? { ...process.env, PORT: values.port } : process.env);
+  } catch (error) {
+    if (error instanceof ConfigError) {
+      io.err(`plumbline serve: invalid configuration: ${error.message}`);
+      return 2;
+    }
+    throw error;
+  }
+
+  const handle = await createDb(config.databaseUrl, config.databaseAuthToken);
+  let demo: { workspaceName: string; token: string } | undefined;
+  if (values.demo) {
+    io.progress("loading the demo workspace...");
+    const loaded = await (await loadDemoModule()).loadDemoWorkspace(handle.db);
+    // The loader's own token may be admin; hand out a read token so that a copied curl line cannot write.
+    const read = await issueToken(handle.db, {
+      workspaceId: loaded.workspace.id,
+      role: "read",
+      label: "printed by plumbline serve --demo",
+    });
+    demo = { workspaceName: loaded.workspace.name, token: read.token };
+  }
+
+  let server: Awaited<ReturnType<typeof startServer>>;
+  try {
+    server = await startServer({
+      db: handle.db,
+      port: config.port,
+      ...(values.host ? { hostname: values.host } : {}),
+    });
+  } catch (error) {
+    handle.close();
+    io.err(`plumbline serve: cannot listen on port ${config.port}: ${(error as Error).message}`);
+    return 1;
+  }
+
+  if (values.json) {
+    io.out(
+      JSON.stringify(
+        demo ? { url: server.url, workspace: demo.workspaceName, token: demo.token } : { url: server.url },
+      ),
+    );
+  } else {
+    io.out(`plumbline is listening on ${server.url}`);
+    io.out(`  API reference: ${server.url}/api/reference`);
+    if (demo) {
+      io.out(`  demo workspace: ${demo.workspaceName}`);
+      io.out(`  read token (shown once): ${demo.token}`);
+      io.out(`  try: curl -H "Authorization: Bearer ${demo.token}" ${server.url}/api/v1/experiments?limit=5`);
+    } else {
+      io.out("  create a workspace and its admin token with: plumbline workspace create NAME");
+    }
+    io.out("Press Ctrl+C to stop.");
+  }
+
+  await (control?.stopped ?? untilInterrupted());
+  await server.close();
+  handle.close();
+  return 0;
+}
+
+interface DemoModule {
+  loadDemoWorkspace(db: Database): Promise<{ workspace: { id: number; name: string }; token: string }>;
+}
+
+/** The demo loader is built separately; its path goes through a variable until it has landed. */
+async function loadDemoModule(): Promise<DemoModule> {
+  const path = "../../demo/load-demo.ts";
+  return (await import(path)) as DemoModule;
+}
+
+function untilInterrupted(): Promise<void> {
+  return new Promise((resolvePromise) => {
+    const stop = () => {
+      process.off("SIGINT", stop);
+      process.off("SIGTERM", stop);
+      resolvePromise();
+    };
+    process.on("SIGINT", stop);
+    process.on("SIGTERM", stop);
+  });
+}
