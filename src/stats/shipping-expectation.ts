@@ -285,3 +285,91 @@ function halfTPartial(
   }
   return { probability, effectMoment: sign * magnitudeMoment };
 }
+
+/**
+ * Expected estimate shipped per test, E[y 1{y > threshold}]: the claimed lift. The noise part
+ * E[e 1{theta + e > t}] = s^2 f_y(t) (Stein's identity for a normal error), f_y the prior
+ * predictive density of y at the threshold, so E[y 1{ship}] = E[theta 1{ship}] + s^2 f_y(t).
+ * Its ratio to expectedShippedEffect is the exaggeration of shipped wins.
+ */
+export function expectedShippedEstimate(
+  prior: EffectPrior,
+  standardError: number,
+  threshold: number,
+): number {
+  const effect = expectedShippedEffect(prior, standardError, threshold);
+  if (Number.isNaN(effect)) return effect;
+  if (!Number.isFinite(threshold)) return effect;
+  return effect + standardError * standardError * predictiveDensity(prior, standardError, threshold);
+}
+
+/** Prior predictive density of the estimate y at `at`: int f(theta) phi_s(at - theta) dtheta. */
+export function predictiveDensity(prior: EffectPrior, standardError: number, at: number): number {
+  if (!(standardError > 0) || !Number.isFinite(standardError) || Number.isNaN(at)) return Number.NaN;
+  let density = 0;
+  for (const { component, weight } of prior.components) {
+    if (weight === 0) continue;
+    density += weight * componentPredictiveDensity(component, standardError, at);
+  }
+  return density;
+}
+
+function componentPredictiveDensity(component: PriorComponent, standardError: number, at: number): number {
+  const s = standardError;
+  switch (component.kind) {
+    case "point":
+      return normalPdf((at - component.at) / s) / s;
+    case "normal": {
+      const totalSd = Math.hypot(component.scale, s);
+      return normalPdf((at - component.mean) / totalSd) / totalSd;
+    }
+    case "uniform": {
+      if (component.upper === component.lower) return normalPdf((at - component.lower) / s) / s;
+      // Phi((at - l)/s) - Phi((at - u)/s), written on the smaller tail to keep precision.
+      const upperZ = (at - component.lower) / s;
+      const lowerZ = (at - component.upper) / s;
+      const mass =
+        lowerZ > 0 ? normalCdf(-lowerZ) - normalCdf(-upperZ) : normalCdf(upperZ) - normalCdf(lowerZ);
+      return mass / (component.upper - component.lower);
+    }
+    case "halfNormal":
+    case "truncatedNormal": {
+      const [mean, scale, lower, upper] =
+        component.kind === "halfNormal"
+          ? component.sign === 1
+            ? [0, component.scale, 0, Number.POSITIVE_INFINITY]
+            : [0, component.scale, Number.NEGATIVE_INFINITY, 0]
+          : [component.mean, component.scale, component.lower, component.upper];
+      const totalSd = Math.hypot(scale, s);
+      // Normal-normal: theta | y ~ N(posteriorMean, posteriorSd^2); restrict to [lower, upper].
+      const posteriorMean = mean + ((scale * scale) / (totalSd * totalSd)) * (at - mean);
+      const posteriorSd = (scale * s) / totalSd;
+      const inside = normalMass((lower - posteriorMean) / posteriorSd, (upper - posteriorMean) / posteriorSd);
+      const priorMass = normalMass((lower - mean) / scale, (upper - mean) / scale);
+      return ((normalPdf((at - mean) / totalSd) / totalSd) * inside) / priorMass;
+    }
+    case "halfT": {
+      const density = (x: number) =>
+        (2 / component.scale) * studentTDensity(x / component.scale, component.df);
+      const kernel = (x: number) => density(x) * (normalPdf((at - component.sign * x) / s) / s);
+      const centre = component.sign * at;
+      const breaks = [0, Math.max(0, centre - 6 * s), Math.max(0, centre + 6 * s)];
+      let total = 0;
+      for (let i = 0; i + 1 < breaks.length; i++)
+        total += integrateAdaptive(kernel, breaks[i]!, breaks[i + 1]!);
+      return (
+        total +
+        integrateAdaptive(kernel, breaks[2]!, Number.POSITIVE_INFINITY, { tailScale: component.scale })
+      );
+    }
+    default: {
+      const unknown: never = component;
+      return unknown;
+    }
+  }
+}
+
+/** Phi(b) - Phi(a) for a <= b, on the smaller tail. */
+function normalMass(a: number, b: number): number {
+  return a > 0 ? normalCdf(-a) - normalCdf(-b) : normalCdf(b) - normalCdf(a);
+}

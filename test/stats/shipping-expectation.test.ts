@@ -3,12 +3,18 @@ import { fileURLToPath } from "node:url";
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import type { EffectPrior, PriorComponent } from "../../src/stats/effect-prior.ts";
-import { bivariateNormalUpperProbability, studentTDensity } from "../../src/stats/prior-quadrature.ts";
+import {
+  bivariateNormalUpperProbability,
+  integrateAdaptive,
+  studentTDensity,
+} from "../../src/stats/prior-quadrature.ts";
 import { createRandom, type RandomSource } from "../../src/stats/random.ts";
 import {
   componentPartial,
   expectedShippedEffect,
+  expectedShippedEstimate,
   expectedShippedLoss,
+  predictiveDensity,
   probabilityOfFalseShipping,
   probabilityOfShipping,
   probabilityOfShippingAbove,
@@ -125,7 +131,14 @@ describe("shipping expectations against a seeded Monte Carlo", () => {
       total += weight;
       cumulative.push(total);
     }
-    const sums = { ship: [0, 0], effect: [0, 0], above: [0, 0], falseWin: [0, 0], loss: [0, 0] };
+    const sums = {
+      ship: [0, 0],
+      effect: [0, 0],
+      above: [0, 0],
+      falseWin: [0, 0],
+      loss: [0, 0],
+      estimate: [0, 0],
+    };
     const add = (key: keyof typeof sums, value: number) => {
       sums[key][0]! += value;
       sums[key][1]! += value * value;
@@ -137,7 +150,9 @@ describe("shipping expectations against a seeded Monte Carlo", () => {
         prior.components[index === -1 ? prior.components.length - 1 : index]!.component,
         random,
       );
-      const ships = theta + standardError * random.normal() > threshold ? 1 : 0;
+      const estimate = theta + standardError * random.normal();
+      const ships = estimate > threshold ? 1 : 0;
+      add("estimate", estimate * ships);
       add("ship", ships);
       add("effect", theta * ships);
       add("above", theta > 0.005 ? ships : 0);
@@ -150,6 +165,7 @@ describe("shipping expectations against a seeded Monte Carlo", () => {
       above: probabilityOfShippingAbove(prior, standardError, threshold, 0.005),
       falseWin: probabilityOfFalseShipping(prior, standardError, threshold, 0.005),
       loss: expectedShippedLoss(prior, standardError, threshold),
+      estimate: expectedShippedEstimate(prior, standardError, threshold),
     };
     for (const key of Object.keys(sums) as (keyof typeof sums)[]) {
       const mean = sums[key][0]! / draws;
@@ -157,6 +173,26 @@ describe("shipping expectations against a seeded Monte Carlo", () => {
       expectClose(`Monte Carlo ${key}`, { standardError, threshold }, mean, expected[key], {
         absolute: 4 * monteCarloError,
       });
+    }
+  });
+});
+
+describe("prior predictive density", () => {
+  it("integrates to 1 over y for every component kind (adaptive quadrature)", () => {
+    const components: PriorComponent[] = [
+      { kind: "point", at: 0.01 },
+      { kind: "normal", mean: -0.01, scale: 0.02 },
+      { kind: "uniform", lower: -0.02, upper: 0.04 },
+      { kind: "halfNormal", sign: -1, scale: 0.02 },
+      { kind: "halfT", sign: 1, scale: 0.01, df: 3 },
+      { kind: "truncatedNormal", mean: 0.01, scale: 0.01, lower: 0, upper: 0.02 },
+    ];
+    for (const component of components) {
+      const prior: EffectPrior = { family: "assumed", components: [{ component, weight: 1 }] };
+      const total = integrateAdaptive((y) => predictiveDensity(prior, 0.005, y), -Infinity, Infinity, {
+        tailScale: 0.02,
+      });
+      expectClose("integral of predictive density", component, total, 1, { absolute: 1e-8 });
     }
   });
 });
