@@ -14,8 +14,8 @@
  * Several rules are simulated on the SAME draws of theta and noise (common random numbers), so
  * the difference between two rules carries no independent simulation noise.
  * Analytic expectations (E[shipped] = sum P(ship_i), E[realized] = sum E[theta_i 1{ship_i}],
- * E[real wins] = sum P(ship_i, theta_i > 0)) are computed with the injected shipping
- * expectations beside the simulated means, as a built-in check.
+ * E[real wins] = sum P(ship_i, theta_i > 0)) are computed exactly (src/stats/shipping-expectation.ts)
+ * beside the simulated means, as a built-in check.
  *
  * Cost: O(R N K) time for R portfolios, N tests and K rules; memory O(R K G) for G groups.
  * The simulation runs in steps (`advance`) so that callers can yield to an event loop.
@@ -26,6 +26,7 @@ import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
 import { type DrawSummary, drawSummary } from "./forecast-quantiles.ts";
 import { createPriorSampler, type PriorSampler } from "./prior-sampling.ts";
 import { createRandom } from "./random.ts";
+import * as shippingExpectation from "./shipping-expectation.ts";
 
 export interface ForecastPlannedTest {
   readonly name: string;
@@ -68,6 +69,7 @@ export interface BacklogForecastInput {
   readonly seed: number;
   /** Target realized total lift for P(realized >= target); none when absent. */
   readonly target?: number | null;
+  /** Exact expectations (default: src/stats/shipping-expectation.ts); null leaves them out. */
   readonly expectations?: ShippingExpectations | null;
 }
 
@@ -262,10 +264,10 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
       const start = ((rule * groupCount + group) * quantityCount + quantity) * simulations;
       return draws.subarray(start, start + simulations);
     };
+    const shippingExpectations: ShippingExpectations | null =
+      input.expectations === undefined ? shippingExpectation : input.expectations;
     const expectationsByRule = rules.map((_, rule) =>
-      tests.map((test, index) =>
-        testExpectation(input.expectations ?? null, test, thresholds[rule]![index]!),
-      ),
+      tests.map((test, index) => testExpectation(shippingExpectations, test, thresholds[rule]![index]!)),
     );
     const groupMembers = (group: number): number[] =>
       tests.flatMap((_, index) =>
@@ -367,7 +369,7 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
       target,
       rules: ruleForecasts,
       differences,
-      assumptions: forecastAssumptions(simulations, input.expectations != null),
+      assumptions: forecastAssumptions(simulations, input.expectations !== null),
       cautions: forecastCautions,
     };
   };

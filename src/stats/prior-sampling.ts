@@ -1,6 +1,6 @@
 /**
  * Draws of a true effect theta from an EffectPrior (any mixture of point, normal, uniform,
- * half-normal and half-t components), for the backlog forecast (statistics.md section 8).
+ * half-normal, half-t and truncated-normal components), for the backlog forecast (statistics.md section 8).
  *
  * - Component choice: inverse cdf of the mixture weights (one uniform), binary search when
  *   the prior has many components (the grid family).
@@ -12,6 +12,7 @@
  * The sampler allocates nothing per draw, so a forecast of millions of draws stays fast.
  * Complexity: O(log K) per draw for K components (O(K) to build).
  */
+import { normalCdf, normalQuantile } from "./distributions.ts";
 import type { EffectPrior, PriorComponent } from "./effect-prior.ts";
 import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
 import type { RandomSource } from "./random.ts";
@@ -98,11 +99,22 @@ function validateComponent(component: PriorComponent, path: string): void {
       requirePositive(`${path}.scale`, component.scale);
       requirePositive(`${path}.df`, component.df);
       return;
+    case "truncatedNormal":
+      requireFinite(`${path}.mean`, component.mean);
+      requirePositive(`${path}.scale`, component.scale);
+      if (
+        Number.isNaN(component.lower) ||
+        Number.isNaN(component.upper) ||
+        !(component.upper > component.lower)
+      ) {
+        throw new StatsInputError(`${path}.upper`, `above lower (${component.lower})`, component.upper);
+      }
+      return;
   }
   // A prior read from stored JSON may carry a kind this version does not know.
   throw new StatsInputError(
     `${path}.kind`,
-    "point, normal, uniform, halfNormal or halfT",
+    "point, normal, uniform, halfNormal, halfT or truncatedNormal",
     (component as { kind: unknown }).kind,
   );
 }
@@ -135,12 +147,36 @@ function componentSampler(component: PriorComponent): PriorSampler {
         return (signedScale * z) / Math.sqrt(chiSquare(random) / df);
       };
     }
+    case "truncatedNormal":
+      return truncatedNormalSampler(component.mean, component.scale, component.lower, component.upper);
   }
   throw new StatsInputError(
     "component.kind",
     "a known component kind",
     (component as { kind: unknown }).kind,
   );
+}
+
+/**
+ * N(mean, scale^2) restricted to [lower, upper] by inversion of the cdf. The interval is
+ * reflected into the lower half of the standard normal first, where Phi keeps its relative
+ * accuracy, so that a window far in the upper tail is not lost to 1 - Phi cancelling.
+ */
+function truncatedNormalSampler(mean: number, scale: number, lower: number, upper: number): PriorSampler {
+  const standardLower = (lower - mean) / scale;
+  const standardUpper = (upper - mean) / scale;
+  const reflect = standardLower + standardUpper > 0;
+  const low = reflect ? -standardUpper : standardLower;
+  const high = reflect ? -standardLower : standardUpper;
+  const cdfLow = normalCdf(low);
+  const cdfWidth = normalCdf(high) - cdfLow;
+  const sign = reflect ? -1 : 1;
+  return (random) => {
+    const z = normalQuantile(cdfLow + cdfWidth * random.uniform());
+    // Rounding can put the quantile a hair outside the window; clamp it back.
+    const standard = Math.min(high, Math.max(low, z));
+    return mean + scale * sign * standard;
+  };
 }
 
 /** A chi-square(df) sampler: a sum of squared normals for small whole df, else 2 Gamma(df/2). */

@@ -115,6 +115,41 @@ describe("forecastBacklog: simulated means against exact expectations (scipy qua
           rule.liftGap,
           total((entry) => entry.expectedShippedEstimate - entry.expectedShippedEffect),
         );
+        // The built-in exact expectations (src/stats/shipping-expectation.ts) against scipy.
+        const exactTolerance = { relative: 1e-7, absolute: 1e-12 };
+        expectClose(
+          "expected shipped",
+          inputs,
+          rule.shipped.expected!,
+          total((entry) => entry.probabilityOfShipping),
+          exactTolerance,
+        );
+        expectClose(
+          "expected realWins",
+          inputs,
+          rule.realWins.expected!,
+          total((entry) => entry.probabilityOfRealWin),
+          exactTolerance,
+        );
+        expectClose(
+          "expected realizedLift",
+          inputs,
+          rule.realizedLift.expected!,
+          total((entry) => entry.expectedShippedEffect),
+          exactTolerance,
+        );
+        expectWithinMonteCarlo(
+          "shipped vs built-in expectation",
+          inputs,
+          rule.shipped,
+          rule.shipped.expected!,
+        );
+        expectWithinMonteCarlo(
+          "realized vs built-in expectation",
+          inputs,
+          rule.realizedLift,
+          rule.realizedLift.expected!,
+        );
         // Per test: the share of portfolios that shipped it is a binomial proportion.
         for (const [index, test] of rule.tests.entries()) {
           const exact = ruleCases[Math.floor(index / 3)]!.probabilityOfShipping;
@@ -204,6 +239,7 @@ describe("forecastBacklog: common random numbers and seeds", () => {
     simulations: 4000,
     seed: 99,
     target: 0.05,
+    expectations: null,
   };
   const forecast = forecastBacklog(input);
 

@@ -56,6 +56,16 @@ describe("createPriorSampler", () => {
     expect(samplePrior(only({ kind: "point", at: 0.3 }), createRandom(1))).toBe(0.3);
   });
 
+  it("draws truncated normals inside their window, also far in a tail", () => {
+    const values = sample(only({ kind: "truncatedNormal", mean: 0, scale: 1, lower: -0.5, upper: 2 }), 8);
+    const mass = normalCdf(2) - normalCdf(-0.5);
+    for (const x of [-0.2, 0.5, 1.5])
+      expectCdf(values, x, (normalCdf(x) - normalCdf(-0.5)) / mass, "truncated");
+    const tail = sample(only({ kind: "truncatedNormal", mean: 0, scale: 1, lower: 9, upper: Infinity }), 9);
+    expect(Math.min(...tail)).toBeGreaterThanOrEqual(9);
+    expect(Math.max(...tail)).toBeLessThan(11);
+  });
+
   it("picks components in proportion to their weights, for short and long mixtures", () => {
     const short: EffectPrior = {
       family: "skewed",
