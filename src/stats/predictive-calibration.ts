@@ -13,37 +13,21 @@
  * noise alone; claimed values taken as fixed), with a normal interval; the posterior predicts
  * `sum E[theta | y] y / t^2 / sum y^2 / t^2` for the same weights, shown beside it.
  *
- * Posterior components are point masses, normals and truncated normals (the closed forms of the
- * symmetric and skewed prior families). A truncated normal convolved with a normal has no simple
+ * Posterior components are point masses, normals, truncated normals and half-normals (the exact
+ * posteriors of posterior.ts); other kinds give NaN. A truncated normal convolved with a normal has no simple
  * closed form; it is integrated by composite Simpson over the truncated support (at least 512 intervals, each
  * at most a sixteenth of the smaller of the two scales, capped at 8000).
  */
 import { normalCdf, normalPdf, normalQuantile } from "./distributions.ts";
+import type { PriorComponent, WeightedComponent } from "./effect-prior.ts";
 import { requireFinite, requireOpenUnit, requirePositive, StatsInputError } from "./errors.ts";
 
-export type PosteriorComponent =
-  | { readonly kind: "point"; readonly at: number }
-  | { readonly kind: "normal"; readonly mean: number; readonly scale: number }
-  | {
-      readonly kind: "truncatedNormal";
-      readonly mean: number;
-      readonly scale: number;
-      readonly lower: number;
-      readonly upper: number;
-    };
-
-export interface WeightedPosteriorComponent {
-  readonly component: PosteriorComponent;
-  readonly weight: number;
-}
+/** Posterior components the predictive handles in closed form or by quadrature. */
+type TruncatedNormal = Extract<PriorComponent, { kind: "truncatedNormal" }>;
 
 const simpsonIntervals = 512;
 
-function truncatedNormalConvolvedCdf(
-  component: Extract<PosteriorComponent, { kind: "truncatedNormal" }>,
-  noiseScale: number,
-  value: number,
-): number {
+function truncatedNormalConvolvedCdf(component: TruncatedNormal, noiseScale: number, value: number): number {
   const { mean, scale } = component;
   // Mass beyond 12 sd is below 1e-32; clipping keeps the quadrature on the support that matters.
   const lower = Math.max(component.lower, mean - 12 * scale);
@@ -71,9 +55,37 @@ function truncatedNormalConvolvedCdf(
   return mass > 0 ? weighted / mass : normalCdf((value - mean) / noiseScale);
 }
 
+function componentPredictiveCdf(component: PriorComponent, noiseScale: number, value: number): number {
+  switch (component.kind) {
+    case "point":
+      return normalCdf((value - component.at) / noiseScale);
+    case "normal":
+      return normalCdf((value - component.mean) / Math.hypot(component.scale, noiseScale));
+    case "truncatedNormal":
+      return truncatedNormalConvolvedCdf(component, noiseScale, value);
+    case "halfNormal": {
+      const support = component.sign === 1 ? [0, Number.POSITIVE_INFINITY] : [Number.NEGATIVE_INFINITY, 0];
+      return truncatedNormalConvolvedCdf(
+        {
+          kind: "truncatedNormal",
+          mean: 0,
+          scale: component.scale,
+          lower: support[0] as number,
+          upper: support[1] as number,
+        },
+        noiseScale,
+        value,
+      );
+    }
+    default:
+      // Uniform and half-t components never appear in an exact posterior (posterior.ts).
+      return Number.NaN;
+  }
+}
+
 /** F(value) for theta ~ posterior mixture, plus independent N(0, noiseScale^2). A kernel. */
 export function predictiveCdf(
-  posterior: readonly WeightedPosteriorComponent[],
+  posterior: readonly WeightedComponent[],
   noiseScale: number,
   value: number,
 ): number {
@@ -83,16 +95,15 @@ export function predictiveCdf(
   for (const { component, weight } of posterior) {
     if (weight <= 0) continue;
     weights += weight;
-    if (component.kind === "point") total += weight * normalCdf((value - component.at) / noiseScale);
-    else if (component.kind === "normal") {
-      total += weight * normalCdf((value - component.mean) / Math.hypot(component.scale, noiseScale));
-    } else total += weight * truncatedNormalConvolvedCdf(component, noiseScale, value);
+    const part = componentPredictiveCdf(component, noiseScale, value);
+    if (Number.isNaN(part)) return Number.NaN;
+    total += weight * part;
   }
   return weights > 0 ? total / weights : Number.NaN;
 }
 
 /** Mean and variance of the posterior mixture (for brackets and display). */
-function mixtureMoments(posterior: readonly WeightedPosteriorComponent[]): {
+function mixtureMoments(posterior: readonly WeightedComponent[]): {
   mean: number;
   variance: number;
 } {
@@ -109,7 +120,7 @@ function mixtureMoments(posterior: readonly WeightedPosteriorComponent[]): {
     } else if (component.kind === "normal") {
       mean = component.mean;
       variance = component.scale ** 2;
-    } else {
+    } else if (component.kind === "truncatedNormal") {
       const alpha = (component.lower - component.mean) / component.scale;
       const beta = (component.upper - component.mean) / component.scale;
       const mass = Math.max(normalCdf(beta) - normalCdf(alpha), 1e-300);
@@ -120,7 +131,7 @@ function mixtureMoments(posterior: readonly WeightedPosteriorComponent[]): {
       const alphaTerm = Number.isFinite(alpha) ? alpha * pdfAlpha : 0;
       const betaTerm = Number.isFinite(beta) ? beta * pdfBeta : 0;
       variance = Math.max(0, component.scale ** 2 * (1 + (alphaTerm - betaTerm) / mass - shift * shift));
-    }
+    } else return { mean: Number.NaN, variance: Number.NaN };
     weights += weight;
     first += weight * mean;
     second += weight * (variance + mean * mean);
@@ -131,7 +142,7 @@ function mixtureMoments(posterior: readonly WeightedPosteriorComponent[]): {
 
 /** The central predictive interval at `level`, by bisection on the predictive cdf. */
 export function predictiveInterval(
-  posterior: readonly WeightedPosteriorComponent[],
+  posterior: readonly WeightedComponent[],
   noiseScale: number,
   level: number,
 ): { lower: number; upper: number; level: number } {
@@ -161,7 +172,7 @@ export interface RealizedComparison {
   /** Posterior mean E[theta_i | y_i] (the shrunk lift). */
   readonly shrunk: number;
   /** The posterior of theta_i | y_i as a mixture. */
-  readonly posterior: readonly WeightedPosteriorComponent[];
+  readonly posterior: readonly WeightedComponent[];
   /** The realized estimate r_i and its standard error t_i. */
   readonly realized: number;
   readonly realizedStandardError: number;
