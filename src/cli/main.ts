@@ -10,6 +10,7 @@ type CommandModule = { run(args: string[], io: CommandIo): Promise<number>; summ
 
 const commands: Record<string, () => Promise<CommandModule>> = {
   // (one line per command, keep alphabetical)
+  demo: () => import("./commands/demo.ts"),
   serve: () => import("./commands/serve.ts"),
 };
 

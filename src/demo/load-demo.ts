@@ -1,0 +1,95 @@
+/**
+ * Creates or refreshes the demo workspace: the generated history and holdouts of the invented
+ * shop (generateDemo) imported through the ordinary importer, exactly as a company's own files
+ * would be. Refreshing deletes the workspace's experiments (their results and realized
+ * measurements go with them) and imports again, so the same seed always gives the same data.
+ * Metrics are kept: the import re-declares them identically, and planned tests may refer to them.
+ */
+import { eq } from "drizzle-orm";
+import { issueToken } from "../api/tokens.ts";
+import type { Database } from "../db/client.ts";
+import { experiments } from "../db/schema.ts";
+import { type ImportReport, importFile } from "../import/import-file.ts";
+import { createWorkspace, findWorkspaceByName, type Workspace } from "../workspaces.ts";
+import { type DemoData, type DemoOptions, generateDemo } from "./generate-demo.ts";
+
+export const demoWorkspaceName = "demo";
+
+export interface LoadDemoOptions extends DemoOptions {
+  /** Workspace name; default "demo". */
+  readonly workspaceName?: string;
+}
+
+export interface LoadedDemo {
+  readonly workspace: Workspace;
+  /** A fresh read token for the workspace (shown once). */
+  readonly token: string;
+  /** The same read token, under the name the loader's contract also gives it. */
+  readonly readToken: string;
+  /** The admin token, only when this call created the workspace (shown once). */
+  readonly adminToken?: string;
+  readonly created: boolean;
+  readonly history: ImportReport;
+  readonly realized: ImportReport;
+  readonly demo: DemoData;
+}
+
+/** Thrown when the demo's own files do not import cleanly (a bug: the demo must import with zero errors). */
+export class DemoImportError extends Error {
+  readonly report: ImportReport;
+  constructor(kind: string, report: ImportReport) {
+    const first = report.errors
+      .slice(0, 5)
+      .map((error) => `row ${error.row}${error.column ? `, ${error.column}` : ""}: ${error.message}`)
+      .join("; ");
+    super(`the demo ${kind} file was rejected with ${report.errors.length} errors (${first})`);
+    this.name = "DemoImportError";
+    this.report = report;
+  }
+}
+
+export async function loadDemoWorkspace(db: Database, options: LoadDemoOptions = {}): Promise<LoadedDemo> {
+  const name = options.workspaceName ?? demoWorkspaceName;
+  const demo = generateDemo(options);
+  const { company } = demo.truth.parameters;
+  let workspace = await findWorkspaceByName(db, name);
+  let adminToken: string | undefined;
+  const created = workspace === undefined;
+  if (workspace) {
+    await db.delete(experiments).where(eq(experiments.workspaceId, workspace.id));
+  } else {
+    const made = await createWorkspace(db, name, {
+      description: `Demo: ${company.name}, ${company.product} (invented; generated with seed ${demo.truth.parameters.seed})`,
+      tokenLabel: "created with the demo workspace",
+    });
+    workspace = made.workspace;
+    adminToken = made.token;
+  }
+  const history = await importFile(db, {
+    workspaceId: workspace.id,
+    tokenId: null,
+    kind: "results",
+    fileName: "demo-history.csv",
+    content: demo.historyCsv,
+  });
+  if (history.errors.length > 0) throw new DemoImportError("history", history);
+  const realized = await importFile(db, {
+    workspaceId: workspace.id,
+    tokenId: null,
+    kind: "realized",
+    fileName: "demo-realized.csv",
+    content: demo.realizedCsv,
+  });
+  if (realized.errors.length > 0) throw new DemoImportError("realized", realized);
+  const read = await issueToken(db, { workspaceId: workspace.id, role: "read", label: "demo read token" });
+  return {
+    workspace,
+    token: read.token,
+    readToken: read.token,
+    ...(adminToken ? { adminToken } : {}),
+    created,
+    history,
+    realized,
+    demo,
+  };
+}
