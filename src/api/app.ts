@@ -18,6 +18,11 @@ import type { AppDeps, AppEnv } from "./context.ts";
 import { ApiError, type ErrorCode, type ErrorIssue, errorBody } from "./errors.ts";
 import { renderLandingPage } from "./landing-page.ts";
 import { renderReferencePage } from "./reference-page.ts";
+import { experimentsRoutes } from "./routes/experiments.ts";
+import { importsRoutes } from "./routes/imports.ts";
+import { metricsRoutes } from "./routes/metrics.ts";
+import { realizedRoutes } from "./routes/realized.ts";
+import { resultsRoutes } from "./routes/results.ts";
 import { tokensRoutes } from "./routes/tokens.ts";
 import { workspacesRoutes } from "./routes/workspaces.ts";
 
@@ -105,6 +110,11 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
   app.use("/api/v1/*", authenticate(deps.db));
   app.route("/api/v1", workspacesRoutes(deps));
   app.route("/api/v1", tokensRoutes(deps));
+  app.route("/api/v1", metricsRoutes(deps));
+  app.route("/api/v1", experimentsRoutes(deps));
+  app.route("/api/v1", resultsRoutes(deps));
+  app.route("/api/v1", realizedRoutes(deps));
+  app.route("/api/v1", importsRoutes(deps));
 
   app.doc("/api/openapi.json", documentConfig);
 

@@ -12,6 +12,8 @@ const commands: Record<string, () => Promise<CommandModule>> = {
   // (one line per command, keep alphabetical)
   demo: () => import("./commands/demo.ts"),
   serve: () => import("./commands/serve.ts"),
+  token: () => import("./commands/token.ts"),
+  workspace: () => import("./commands/workspace.ts"),
 };
 
 function usage(summaries: [string, string][]): string {

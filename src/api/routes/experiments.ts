@@ -1,0 +1,229 @@
+/**
+ * Experiments: listed with filters (team, metric, decision, a date range) and pagination; one
+ * experiment with all its results and realized measurements. A key belongs to one workspace:
+ * asking for another workspace's experiment answers 404, exactly as for a key that never existed.
+ */
+import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
+import { and, asc, count, eq, exists, gte, isNotNull, isNull, lte, or, type SQL } from "drizzle-orm";
+import { experiments, metrics, results } from "../../db/schema.ts";
+import { requireRole } from "../auth.ts";
+import {
+  authenticatedErrors,
+  errorResponses,
+  IsoDateSchema,
+  PaginationQuerySchema,
+  pageSchema,
+} from "../common-schemas.ts";
+import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
+import { ApiError } from "../errors.ts";
+import { RealizedMeasurementSchema, realizedOfExperiment } from "./realized.ts";
+import { ResultSchema, resultsOfExperiment } from "./results.ts";
+
+const DecisionSchema = z.enum(["shipped", "not_shipped", "iterate", "pending"]);
+
+export const ExperimentSchema = z
+  .object({
+    id: z.number().int(),
+    key: z
+      .string()
+      .openapi({ description: "The team's own id, unique in the workspace", example: "chk-0142" }),
+    name: z.string(),
+    team: z.string().nullable(),
+    hypothesis: z.string().nullable(),
+    startedOn: z.string().nullable(),
+    endedOn: z.string().nullable(),
+    plannedSplit: z
+      .array(z.number())
+      .nullable()
+      .openapi({ description: "Share of traffic per arm, control first" }),
+    plannedAlpha: z.number().nullable(),
+    plannedPower: z.number().nullable(),
+    plannedMde: z
+      .number()
+      .nullable()
+      .openapi({ description: "Planned minimum detectable effect (relative)" }),
+    plannedSampleSize: z.number().int().nullable(),
+    stoppedEarly: z.boolean(),
+    isAa: z.boolean().openapi({ description: "An A/A test (both arms identical)" }),
+    decision: DecisionSchema,
+    decidedOn: z.string().nullable(),
+    createdAt: z.string(),
+    updatedAt: z.string().nullable(),
+  })
+  .openapi("Experiment");
+
+const ExperimentDetailSchema = ExperimentSchema.extend({
+  results: z.array(ResultSchema),
+  realizedMeasurements: z.array(RealizedMeasurementSchema),
+}).openapi("ExperimentDetail");
+
+const ExperimentsQuerySchema = PaginationQuerySchema.extend({
+  team: z.string().min(1).optional().openapi({ description: "Only this team" }),
+  metric: z
+    .string()
+    .min(1)
+    .optional()
+    .openapi({ description: "Only experiments with a result on this metric (key)" }),
+  decision: DecisionSchema.optional(),
+  from: IsoDateSchema.optional().openapi({
+    description: "Only experiments still running on or after this date (no end date = still running)",
+  }),
+  to: IsoDateSchema.optional().openapi({ description: "Only experiments started on or before this date" }),
+}).refine((query) => !query.from || !query.to || query.from <= query.to, {
+  path: ["to"],
+  message: "must be on or after from",
+});
+
+const ExperimentKeyParamSchema = z.object({
+  key: z
+    .string()
+    .min(1)
+    .openapi({ param: { name: "key", in: "path" }, example: "chk-0142" }),
+});
+
+function toView(row: typeof experiments.$inferSelect): z.infer<typeof ExperimentSchema> {
+  return {
+    id: row.id,
+    key: row.key,
+    name: row.name,
+    team: row.team,
+    hypothesis: row.hypothesis,
+    startedOn: row.startedOn,
+    endedOn: row.endedOn,
+    plannedSplit: row.plannedSplit,
+    plannedAlpha: row.plannedAlpha,
+    plannedPower: row.plannedPower,
+    plannedMde: row.plannedMde,
+    plannedSampleSize: row.plannedSampleSize,
+    stoppedEarly: row.stoppedEarly,
+    isAa: row.isAa,
+    decision: row.decision,
+    decidedOn: row.decidedOn,
+    createdAt: row.createdAt,
+    updatedAt: row.updatedAt,
+  };
+}
+
+export function experimentsRoutes({ db }: AppDeps): ApiRouter {
+  async function findExperiment(workspaceId: number, key: string) {
+    const [row] = await db
+      .select()
+      .from(experiments)
+      .where(and(eq(experiments.workspaceId, workspaceId), eq(experiments.key, key)))
+      .limit(1);
+    if (!row) throw new ApiError(404, "not_found", `no experiment "${key}" in this workspace`);
+    return row;
+  }
+
+  return new OpenAPIHono<AppEnv>()
+    .openapi(
+      createRoute({
+        method: "get",
+        path: "/experiments",
+        tags: ["experiments"],
+        summary: "Experiments, filtered and paginated, newest start first",
+        request: { query: ExperimentsQuerySchema },
+        responses: {
+          200: {
+            description: "A page of experiments",
+            content: { "application/json": { schema: pageSchema(ExperimentSchema) } },
+          },
+          ...errorResponses(...authenticatedErrors),
+        },
+      }),
+      async (c) => {
+        const query = c.req.valid("query");
+        const conditions: (SQL | undefined)[] = [eq(experiments.workspaceId, c.get("auth").workspaceId)];
+        if (query.team !== undefined) conditions.push(eq(experiments.team, query.team));
+        if (query.decision !== undefined) conditions.push(eq(experiments.decision, query.decision));
+        if (query.metric !== undefined) {
+          conditions.push(
+            exists(
+              db
+                .select({ one: results.id })
+                .from(results)
+                .innerJoin(metrics, eq(metrics.id, results.metricId))
+                .where(and(eq(results.experimentId, experiments.id), eq(metrics.key, query.metric))),
+            ),
+          );
+        }
+        // Overlap with [from, to]: an experiment without an end date is still running.
+        if (query.from !== undefined)
+          conditions.push(
+            or(
+              gte(experiments.endedOn, query.from),
+              and(isNull(experiments.endedOn), isNotNull(experiments.startedOn)),
+            ),
+          );
+        if (query.to !== undefined) conditions.push(lte(experiments.startedOn, query.to));
+        const where = and(...conditions);
+        const [rows, totals] = await Promise.all([
+          db
+            .select()
+            .from(experiments)
+            .where(where)
+            .orderBy(asc(experiments.startedOn), asc(experiments.key))
+            .limit(query.limit)
+            .offset(query.offset),
+          db.select({ n: count() }).from(experiments).where(where),
+        ]);
+        return c.json(
+          { items: rows.map(toView), total: totals[0]?.n ?? 0, limit: query.limit, offset: query.offset },
+          200,
+        );
+      },
+    )
+    .openapi(
+      createRoute({
+        method: "get",
+        path: "/experiments/{key}",
+        tags: ["experiments"],
+        summary: "One experiment with its results and realized measurements",
+        request: { params: ExperimentKeyParamSchema },
+        responses: {
+          200: {
+            description: "The experiment",
+            content: { "application/json": { schema: ExperimentDetailSchema } },
+          },
+          ...errorResponses(...authenticatedErrors, 404),
+        },
+      }),
+      async (c) => {
+        const { key } = c.req.valid("param");
+        const experiment = await findExperiment(c.get("auth").workspaceId, key);
+        const [experimentResults, realized] = await Promise.all([
+          resultsOfExperiment(db, experiment.id),
+          realizedOfExperiment(db, experiment.id),
+        ]);
+        return c.json(
+          { ...toView(experiment), results: experimentResults, realizedMeasurements: realized },
+          200,
+        );
+      },
+    )
+    .openapi(
+      createRoute({
+        method: "delete",
+        path: "/experiments/{key}",
+        tags: ["experiments"],
+        summary: "Delete an experiment with its results and realized measurements (write)",
+        description: "For an experiment imported by mistake; importing it again brings it back.",
+        request: { params: ExperimentKeyParamSchema },
+        responses: {
+          200: {
+            description: "The experiment as it was",
+            content: { "application/json": { schema: ExperimentSchema } },
+          },
+          ...errorResponses(...authenticatedErrors, 404),
+        },
+      }),
+      async (c) => {
+        const auth = requireRole(c, "write");
+        const { key } = c.req.valid("param");
+        const experiment = await findExperiment(auth.workspaceId, key);
+        // Results and realized measurements go with it (foreign keys cascade).
+        await db.delete(experiments).where(eq(experiments.id, experiment.id));
+        return c.json(toView(experiment), 200);
+      },
+    );
+}
