@@ -176,6 +176,16 @@ function normalPartial(
   upper: number,
 ): ShippingPartial {
   if (!(lower < upper)) return zeroPartial;
+  if (lower === Number.NEGATIVE_INFINITY && upper === Number.POSITIVE_INFINITY) {
+    // Whole line: y ~ N(mean, scale^2 + s^2), E[theta 1{y > t}] = mean P + scale^2 phi(k) / sd_y.
+    const totalSd = Math.hypot(scale, standardError);
+    const standardized = (mean - threshold) / totalSd;
+    const probability = normalCdf(standardized);
+    return {
+      probability,
+      effectMoment: mean * probability + ((scale * scale) / totalSd) * normalPdf(standardized),
+    };
+  }
   const lowerStandard = (lower - mean) / scale;
   const upperStandard = (upper - mean) / scale;
   const totalSd = Math.hypot(scale, standardError);
@@ -226,6 +236,10 @@ function uniformPartial(
   const to = Math.min(componentUpper, upper);
   if (!(from < to)) return zeroPartial;
   const density = 1 / (componentUpper - componentLower);
+  if (threshold === Number.NEGATIVE_INFINITY) {
+    return { probability: density * (to - from), effectMoment: (density * (to - from) * (to + from)) / 2 };
+  }
+  if (threshold === Number.POSITIVE_INFINITY) return zeroPartial;
   // theta = t + s x: int Phi((theta - t)/s) dtheta = s [A(x)], int theta Phi dtheta = s t [A] + s^2 [B].
   const fromStandard = (from - threshold) / standardError;
   const toStandard = (to - threshold) / standardError;
