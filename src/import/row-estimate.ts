@@ -109,7 +109,11 @@ export function estimateRow(
     if (candidate) candidates.push(candidate);
   }
 
-  const lift = reader.decimal("lift");
+  const givenLift = reader.decimal("lift");
+  // Without a lift column, the forms that need an estimate use the one the counts or means give.
+  const derived = candidates[0];
+  const lift =
+    givenLift ?? (derived && !reader.has("lift") ? { value: derived.lift, halfUnit: 0 } : undefined);
   const givesLiftSe = reader.has("lift_se");
   const givesInterval = reader.has("lift_ci_low") || reader.has("lift_ci_high");
   const givesPValue = reader.has("p_value");
@@ -156,12 +160,13 @@ export function estimateRow(
   if (reader.errorCount > errorsBefore) return undefined;
   const [primary, ...others] = candidates;
   if (!primary) {
-    reader.fail("lift", missingEstimateMessage);
+    // A cell that failed to parse already explains why no form could be read.
+    if (reader.errorCount === 0) reader.fail("lift", missingEstimateMessage);
     return undefined;
   }
   let consistent = true;
-  if (lift !== undefined && (primary.form === "counts" || primary.form === "means")) {
-    const given = around(lift.value, lift.halfUnit);
+  if (givenLift !== undefined && (primary.form === "counts" || primary.form === "means")) {
+    const given = around(givenLift.value, givenLift.halfUnit);
     if (!overlaps(given, primary.liftRange, 1e-3)) {
       reader.fail(
         "lift",
