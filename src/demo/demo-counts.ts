@@ -22,6 +22,14 @@ export interface DemoCounts {
   readonly holdouts: number;
   readonly inputForms: Readonly<Record<string, number>>;
   readonly percentRows: number;
+  /** Shipped primaries whose true effect is <= 0 (false wins), and < 0 (shipped losses). */
+  readonly falseWins: number;
+  readonly shippedLosses: number;
+  /** Sum over shipped primaries of the observed lift y (claimed) and of the true effect. */
+  readonly shippedClaimedLift: number;
+  readonly shippedTrueLift: number;
+  /** A/A primaries (decided or pending) whose lift is significant at two-sided alpha. */
+  readonly aaSignificant: number;
 }
 
 function tally(values: readonly string[]): Record<string, number> {
@@ -30,8 +38,10 @@ function tally(values: readonly string[]): Record<string, number> {
   return counts;
 }
 
-export function countDemo(rows: readonly DemoResultTruth[]): DemoCounts {
+/** @param criticalZ z_{1 - alpha/2} of the demo's decision rule */
+export function countDemo(rows: readonly DemoResultTruth[], criticalZ: number): DemoCounts {
   const primaries = rows.filter((row) => row.isPrimary);
+  const shipped = primaries.filter((row) => row.decision === "shipped");
   const decisions = { shipped: 0, not_shipped: 0, iterate: 0, pending: 0 };
   for (const row of primaries) decisions[row.decision] += 1;
   return {
@@ -51,5 +61,12 @@ export function countDemo(rows: readonly DemoResultTruth[]): DemoCounts {
     holdouts: primaries.filter((row) => row.holdout !== null).length,
     inputForms: tally(rows.map((row) => row.inputForm)),
     percentRows: rows.filter((row) => row.percent).length,
+    falseWins: shipped.filter((row) => row.trueEffect <= 0).length,
+    shippedLosses: shipped.filter((row) => row.trueEffect < 0).length,
+    shippedClaimedLift: shipped.reduce((sum, row) => sum + row.observedLift, 0),
+    shippedTrueLift: shipped.reduce((sum, row) => sum + row.trueEffect, 0),
+    aaSignificant: primaries.filter(
+      (row) => row.isAa && Math.abs(row.observedLift / row.observedSe) > criticalZ,
+    ).length,
   };
 }

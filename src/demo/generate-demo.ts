@@ -632,6 +632,10 @@ export function generateDemo(options: DemoOptions = {}): DemoData {
   return {
     historyCsv: formatCsv(historyColumns, historyRows),
     realizedCsv: formatCsv(realizedColumns, realizedRows),
-    truth: { parameters, experiments: truthRows, counts: countDemo(truthRows) },
+    truth: {
+      parameters,
+      experiments: truthRows,
+      counts: countDemo(truthRows, normalQuantile(1 - parameters.alpha / 2)),
+    },
   };
 }

@@ -291,6 +291,21 @@ describe("generateDemo: every row is self-consistent", () => {
   });
 });
 
+describe("generateDemo: program truth for later features", () => {
+  it("exposes the true figures of the shipped set: false wins, claimed and true total lift", () => {
+    const shipped = primaries.filter((row) => row.decision === "shipped");
+    expect(truth.counts.decisions.shipped).toBe(shipped.length);
+    expect(truth.counts.falseWins).toBe(shipped.filter((row) => row.trueEffect <= 0).length);
+    expect(truth.counts.shippedTrueLift).toBeCloseTo(
+      shipped.reduce((sum, row) => sum + row.trueEffect, 0),
+      12,
+    );
+    // The winner's curse: the claimed total of what shipped exceeds its true total.
+    expect(truth.counts.shippedClaimedLift).toBeGreaterThan(truth.counts.shippedTrueLift);
+    expect(truth.parameters).toEqual(defaultDemoParameters);
+  });
+});
+
 describe("generateDemo: holdouts", () => {
   it("measures shipped primaries about two months after they ended", () => {
     const byKey = new Map(primaries.map((row) => [row.key, row]));
