@@ -230,13 +230,13 @@ function checkOptimum(
   };
 }
 
-interface SimplexResult {
+export interface SimplexResult {
   readonly point: [number, number];
   readonly value: number;
 }
 
 /** Nelder-Mead minimisation in two dimensions with the standard coefficients (1, 2, 1/2, 1/2). */
-function nelderMead(
+export function nelderMead(
   f: (point: [number, number]) => number,
   start: [number, number],
   steps: [number, number],
