@@ -160,6 +160,14 @@ function respondToError(
   }
   if (error instanceof HTTPException) {
     const status = error.status as ContentfulStatusCode;
+    if (status === 415)
+      return c.json(
+        errorBody(
+          "bad_request",
+          `unsupported Content-Type ${JSON.stringify(c.req.header("content-type") ?? "")}; send application/json (imports also take text/csv)`,
+        ),
+        415,
+      );
     return c.json(errorBody(codeForStatus(status), error.message || "request refused"), status);
   }
   const id = c.get("requestId");
@@ -181,7 +189,6 @@ function codeForStatus(status: number): ErrorCode {
       return "conflict";
     case 413:
       return "payload_too_large";
-    case 415:
     case 422:
       return "unprocessable";
     default:

@@ -4,9 +4,9 @@
  * a read token for it, so that a newcomer has something to look at straight away.
  */
 import { parseArgs } from "node:util";
-import { issueToken } from "../../api/tokens.ts";
 import { ConfigError, loadConfig } from "../../config.ts";
-import { createDb, type Database } from "../../db/client.ts";
+import { createDb } from "../../db/client.ts";
+import { loadDemoWorkspace } from "../../demo/load-demo.ts";
 import { startServer } from "../../server.ts";
 import type { CommandIo } from "../io.ts";
 
@@ -62,18 +62,18 @@ export async function run(args: string[], io: CommandIo, control?: ServeControl)
     throw error;
   }
 
-  const handle = await createDb(config.databaseUrl, config.databaseAuthToken);
+  let handle: Awaited<ReturnType<typeof createDb>>;
+  try {
+    handle = await createDb(config.databaseUrl, config.databaseAuthToken);
+  } catch (error) {
+    io.err(`plumbline serve: cannot open the database ${config.databaseUrl}: ${(error as Error).message}`);
+    return 1;
+  }
   let demo: { workspaceName: string; token: string } | undefined;
   if (values.demo) {
     io.progress("loading the demo workspace...");
-    const loaded = await (await loadDemoModule()).loadDemoWorkspace(handle.db);
-    // The loader's own token may be admin; hand out a read token so that a copied curl line cannot write.
-    const read = await issueToken(handle.db, {
-      workspaceId: loaded.workspace.id,
-      role: "read",
-      label: "printed by plumbline serve --demo",
-    });
-    demo = { workspaceName: loaded.workspace.name, token: read.token };
+    const loaded = await loadDemoWorkspace(handle.db);
+    demo = { workspaceName: loaded.workspace.name, token: loaded.token };
   }
 
   let server: Awaited<ReturnType<typeof startServer>>;
@@ -101,7 +101,9 @@ export async function run(args: string[], io: CommandIo, control?: ServeControl)
     if (demo) {
       io.out(`  demo workspace: ${demo.workspaceName}`);
       io.out(`  read token (shown once): ${demo.token}`);
-      io.out(`  try: curl -H "Authorization: Bearer ${demo.token}" ${server.url}/api/v1/experiments?limit=5`);
+      io.out(
+        `  try: curl -H "Authorization: Bearer ${demo.token}" "${server.url}/api/v1/experiments?limit=5"`,
+      );
     } else {
       io.out("  create a workspace and its admin token with: plumbline workspace create NAME");
     }
@@ -112,16 +114,6 @@ export async function run(args: string[], io: CommandIo, control?: ServeControl)
   await server.close();
   handle.close();
   return 0;
-}
-
-interface DemoModule {
-  loadDemoWorkspace(db: Database): Promise<{ workspace: { id: number; name: string }; token: string }>;
-}
-
-/** The demo loader is built separately; its path goes through a variable until it has landed. */
-async function loadDemoModule(): Promise<DemoModule> {
-  const path = "../../demo/load-demo.ts";
-  return (await import(path)) as DemoModule;
 }
 
 function untilInterrupted(): Promise<void> {
