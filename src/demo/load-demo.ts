@@ -8,7 +8,7 @@
 import { eq } from "drizzle-orm";
 import { issueToken } from "../api/tokens.ts";
 import type { Database } from "../db/client.ts";
-import { experiments } from "../db/schema.ts";
+import { experiments, workspaces } from "../db/schema.ts";
 import { type ImportReport, importFile } from "../import/import-file.ts";
 import { createWorkspace, findWorkspaceByName, type Workspace } from "../workspaces.ts";
 import { type DemoData, type DemoOptions, generateDemo } from "./generate-demo.ts";
@@ -52,14 +52,22 @@ export async function loadDemoWorkspace(db: Database, options: LoadDemoOptions =
   const name = options.workspaceName ?? demoWorkspaceName;
   const demo = generateDemo(options);
   const { company } = demo.truth.parameters;
+  const description = `Demo: ${company.name}, ${company.product} (invented; generated with seed ${demo.truth.parameters.seed})`;
   let workspace = await findWorkspaceByName(db, name);
   let adminToken: string | undefined;
   const created = workspace === undefined;
   if (workspace) {
     await db.delete(experiments).where(eq(experiments.workspaceId, workspace.id));
+    // The description names the seed, which a refresh may change.
+    [workspace] = await db
+      .update(workspaces)
+      .set({ description })
+      .where(eq(workspaces.id, workspace.id))
+      .returning();
+    if (!workspace) throw new Error("the demo workspace disappeared during its refresh");
   } else {
     const made = await createWorkspace(db, name, {
-      description: `Demo: ${company.name}, ${company.product} (invented; generated with seed ${demo.truth.parameters.seed})`,
+      description,
       tokenLabel: "created with the demo workspace",
     });
     workspace = made.workspace;
