@@ -11,7 +11,12 @@ type CommandModule = { run(args: string[], io: CommandIo): Promise<number>; summ
 const commands: Record<string, () => Promise<CommandModule>> = {
   // (one line per command, keep alphabetical)
   demo: () => import("./commands/demo.ts"),
+  design: () => import("./commands/design.ts"),
+  experiments: () => import("./commands/experiments.ts"),
+  import: () => import("./commands/import.ts"),
+  risk: () => import("./commands/risk.ts"),
   serve: () => import("./commands/serve.ts"),
+  size: () => import("./commands/size.ts"),
   token: () => import("./commands/token.ts"),
   workspace: () => import("./commands/workspace.ts"),
 };
