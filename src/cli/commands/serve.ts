@@ -56,7 +56,11 @@ export async function run(args: string[], io: CommandIo, control?: ServeControl)
     config = loadConfig(values.port !== undefined ? { ...process.env, PORT: values.port } : process.env);
   } catch (error) {
     if (error instanceof ConfigError) {
-      io.err(`plumbline serve: invalid configuration: ${error.message}`);
+      const message =
+        values.port !== undefined && error.variable === "PORT"
+          ? error.message.replace(/^PORT/, "--port")
+          : error.message;
+      io.err(`plumbline serve: invalid configuration: ${message}`);
       return 2;
     }
     throw error;
