@@ -1,0 +1,167 @@
+/**
+ * Runs the program review of a workspace: reads the family's stored history, fits the prior of true
+ * effects to the included tests (every family, for the sensitivity table), computes the pure review
+ * (src/stats/program-review.ts) over the filtered tests, and caches the result by settings and data.
+ * A second identical request on unchanged data is served from the cache (`cached: true`).
+ */
+import type { Database } from "../db/client.ts";
+import { type FitFamily, fitEffectPrior } from "../stats/fit-effect-prior.ts";
+import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
+import { createRandom } from "../stats/random.ts";
+import { readReviewData } from "./read-review-data.ts";
+import {
+  readCache,
+  reviewCacheKey,
+  reviewCacheKind,
+  reviewTestsCacheKind,
+  storedDataSignature,
+  writeCache,
+} from "./review-cache.ts";
+import { type ReviewFilters, resolveFilters } from "./review-filters.ts";
+
+export interface ReviewRequest {
+  readonly filters?: ReviewFilters;
+  /** Threshold for a false win (default 0). */
+  readonly delta?: number;
+  /** Practical threshold also reported (default none). */
+  readonly practicalThreshold?: number | null;
+  /** Two-sided level of the launch rule (default 0.05). */
+  readonly alpha?: number;
+  /** Caliper half-width as a share of the critical z (default 0.1). */
+  readonly caliperWidth?: number;
+  /** Null penalty of the prior fit (default: the fit's own default). */
+  readonly nullWeight?: number;
+  /** Prior family (default "auto": the better of symmetric and skewed by likelihood). */
+  readonly priorFamily?: FitFamily | "auto";
+  /** Seed of every random draw of the review (default 1). */
+  readonly seed?: number;
+}
+
+/** The settings a review ran with, resolved (stored with every saved review). */
+export interface ReviewSettings {
+  readonly filters: ReviewFilters;
+  readonly delta: number;
+  readonly practicalThreshold: number | null;
+  readonly alpha: number;
+  readonly caliperWidth: number;
+  readonly nullWeight: number | null;
+  readonly priorFamily: FitFamily | "auto";
+  readonly seed: number;
+}
+
+/** The review as served: the program review without its per-test table, plus provenance. */
+export type ReviewSummary = Omit<ProgramReview, "tests"> & {
+  readonly settings: ReviewSettings;
+  readonly dataFingerprint: string;
+  readonly families: readonly { readonly family: string; readonly tests: number }[];
+  readonly reviewedTests: number;
+};
+
+export interface ReviewOutcome {
+  readonly summary: ReviewSummary;
+  /** The per-test table when asked for. */
+  readonly tests: readonly ReviewTestRow[] | null;
+  readonly cached: boolean;
+  readonly cacheKey: string;
+}
+
+export function resolveReviewSettings(request: ReviewRequest): ReviewSettings {
+  return {
+    filters: resolveFilters(request.filters ?? {}),
+    delta: request.delta ?? 0,
+    practicalThreshold: request.practicalThreshold ?? null,
+    alpha: request.alpha ?? 0.05,
+    caliperWidth: request.caliperWidth ?? 0.1,
+    nullWeight: request.nullWeight ?? null,
+    priorFamily: request.priorFamily ?? "auto",
+    seed: request.seed ?? 1,
+  };
+}
+
+export async function runReview(
+  db: Database,
+  workspaceId: number,
+  request: ReviewRequest,
+  options: { readonly includeTests?: boolean; readonly onProgress?: (message: string) => void } = {},
+): Promise<ReviewOutcome> {
+  const settings = resolveReviewSettings(request);
+  const progress = options.onProgress ?? (() => undefined);
+  const signature = await storedDataSignature(db, workspaceId);
+  const cacheKey = reviewCacheKey(settings, signature);
+  // cache_key is the table's primary key: the table gets its own key.
+  const testsCacheKey = `${cacheKey}:tests`;
+  const cachedSummary = await readCache<ReviewSummary>(db, cacheKey, reviewCacheKind);
+  if (cachedSummary) {
+    const tests = options.includeTests
+      ? await readCache<ReviewTestRow[]>(db, testsCacheKey, reviewTestsCacheKind)
+      : null;
+    if (!options.includeTests || tests) return { summary: cachedSummary, tests, cached: true, cacheKey };
+  }
+
+  progress("reading the stored history");
+  const data = await readReviewData(db, workspaceId, settings.filters);
+  const included = data.familyTests.filter(
+    (test) => !test.isAa && !test.sampleRatioMismatch && Number.isFinite(test.s) && test.s > 0,
+  );
+  if (included.length === 0) {
+    throw new RangeError(
+      `metric family "${data.family}" has no tests left to fit after leaving out A/A, mismatched and unmeasured ones`,
+    );
+  }
+  progress(`fitting the prior to ${included.length} tests of "${data.family}"`);
+  const observations = included.map((test) => ({ y: test.y, s: test.s }));
+  const fitOptions = settings.nullWeight !== null ? { nullWeight: settings.nullWeight } : {};
+  const fit = fitEffectPrior(observations, { ...fitOptions, family: settings.priorFamily });
+  // Sensitivity: the other families, as fitted alongside ("auto") or fitted here.
+  const alternatives =
+    fit.alternatives ??
+    (["symmetric", "skewed", "grid"] as const)
+      .filter((family) => family !== fit.family)
+      .map((family) => fitEffectPrior(observations, { ...fitOptions, family }));
+  progress("computing the review");
+  const review = programReview({
+    tests: data.reviewedTests,
+    fit,
+    alternativeFits: alternatives,
+    random: createRandom(settings.seed),
+    settings: {
+      delta: settings.delta,
+      practicalThreshold: settings.practicalThreshold,
+      alpha: settings.alpha,
+      caliperWidth: settings.caliperWidth,
+    },
+    extraAssumptions: [
+      `Metric family "${data.family}": primary results only; the prior is fitted to all ${included.length} included tests of the family, the review covers the ${data.reviewedTests.length} tests that pass the filters${describeFilters(settings.filters)}.`,
+      "Realized measurements: a holdout is preferred to a re-test, and a re-test to a post-launch read, when a test has several.",
+    ],
+  });
+  const { tests, ...rest } = review;
+  const summary: ReviewSummary = {
+    ...rest,
+    settings,
+    dataFingerprint: data.fingerprint,
+    families: data.families,
+    reviewedTests: data.reviewedTests.length,
+  };
+  // Through JSON once, so that a fresh result and a cached one are the same document (NaN -> null).
+  const storedSummary = JSON.parse(JSON.stringify(summary)) as ReviewSummary;
+  const storedTests = JSON.parse(JSON.stringify(tests)) as ReviewTestRow[];
+  await writeCache(db, workspaceId, [
+    { cacheKey, kind: reviewCacheKind, value: storedSummary },
+    { cacheKey: testsCacheKey, kind: reviewTestsCacheKind, value: storedTests },
+  ]);
+  return {
+    summary: storedSummary,
+    tests: options.includeTests ? storedTests : null,
+    cached: false,
+    cacheKey,
+  };
+}
+
+function describeFilters(filters: ReviewFilters): string {
+  const parts: string[] = [];
+  if (filters.team) parts.push(`team ${filters.team}`);
+  if (filters.quarter) parts.push(`quarter ${filters.quarter}`);
+  else if (filters.from || filters.to) parts.push(`dated ${filters.from ?? "any"} to ${filters.to ?? "any"}`);
+  return parts.length > 0 ? ` (${parts.join(", ")})` : "";
+}
