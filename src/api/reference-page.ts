@@ -51,6 +51,15 @@ export function renderReferencePage(document: unknown): string {
     )
     .join("");
 
+  const schemaSection = Object.entries(schemas)
+    .map(
+      ([name, schema]) =>
+        `<article id="schema-${name.replace(/[^A-Za-z0-9]+/g, "-")}"><h3><code>${escapeHtml(name)}</code></h3>` +
+        `${typeof schema["description"] === "string" ? `<p>${escapeHtml(schema["description"])}</p>` : ""}` +
+        `${renderSchema(schema, schemas)}</article>`,
+    )
+    .join("\n");
+
   const title = doc.info?.title ?? "API reference";
   return `<!doctype html>
 <html lang="en">
@@ -75,8 +84,12 @@ th { font-weight: 600; }
 <h1>${escapeHtml(title)} <span class="muted">version ${escapeHtml(doc.info?.version ?? "")}</span></h1>
 <p>${escapeHtml(doc.info?.description ?? "")}</p>
 <p>Machine-readable document: <a href="/api/openapi.json"><code>/api/openapi.json</code></a>.</p>
-<nav><h2>Contents</h2><ul>${contents}</ul></nav>
+<nav><h2>Contents</h2><ul>${contents}<li><a href="#schemas">Schemas</a></li></ul></nav>
 ${sections}
+<section id="schemas"><h2>Schemas</h2>
+<p>The named types used above.</p>
+${schemaSection}
+</section>
 </body>
 </html>
 `;
@@ -165,12 +178,24 @@ function renderSchema(raw: Json | undefined, schemas: Record<string, JsonObject>
   return `<table><tr><th>field</th><th>type</th><th>required</th><th>description</th></tr>${rows.join("")}</table>`;
 }
 
-function resolve(raw: Json | undefined, schemas: Record<string, JsonObject>): JsonObject {
-  if (!raw || typeof raw !== "object" || Array.isArray(raw)) return {};
+function resolve(raw: Json | undefined, schemas: Record<string, JsonObject>, depth = 0): JsonObject {
+  if (!raw || typeof raw !== "object" || Array.isArray(raw) || depth > 8) return {};
   const ref = raw["$ref"];
   if (typeof ref === "string") {
     const name = ref.split("/").pop() ?? "";
-    return schemas[name] ?? {};
+    return resolve(schemas[name], schemas, depth + 1);
+  }
+  const parts = raw["allOf"];
+  if (Array.isArray(parts)) {
+    // An extended schema (e.g. a detail view) is written as allOf; show the merged fields.
+    const properties: JsonObject = {};
+    const required: Json[] = [];
+    for (const part of parts) {
+      const resolved = resolve(part, schemas, depth + 1);
+      Object.assign(properties, (resolved["properties"] as JsonObject | undefined) ?? {});
+      if (Array.isArray(resolved["required"])) required.push(...resolved["required"]);
+    }
+    return { type: "object", properties, required };
   }
   return raw;
 }

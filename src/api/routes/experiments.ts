@@ -121,7 +121,7 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
         method: "get",
         path: "/experiments",
         tags: ["experiments"],
-        summary: "Experiments, filtered and paginated, newest start first",
+        summary: "Experiments, filtered and paginated, in order of start date",
         request: { query: ExperimentsQuerySchema },
         responses: {
           200: {
