@@ -10,9 +10,11 @@ type CommandModule = { run(args: string[], io: CommandIo): Promise<number>; summ
 
 const commands: Record<string, () => Promise<CommandModule>> = {
   // (one line per command, keep alphabetical)
+  backlog: () => import("./commands/backlog.ts"),
   demo: () => import("./commands/demo.ts"),
   design: () => import("./commands/design.ts"),
   experiments: () => import("./commands/experiments.ts"),
+  forecast: () => import("./commands/forecast.ts"),
   import: () => import("./commands/import.ts"),
   risk: () => import("./commands/risk.ts"),
   serve: () => import("./commands/serve.ts"),
