@@ -1,0 +1,103 @@
+/**
+ * The N x K matrix of marginal likelihoods L_ik = int N(y_i; theta, s_i^2) f_k(theta) dtheta
+ * (statistics.md section 5), stored row-major in one Float64Array with each row divided by its
+ * maximum, so that every row's largest entry is 1 and nothing underflows however extreme y_i/s_i
+ * is; the row maxima are kept as logs (the log-likelihood adds them back). This is the scaling
+ * used by mix-SQP (Kim, Carbonetto, Stephens & Anitescu 2020, JCGS 29:945, section 3.2).
+ *
+ * Point and normal components take a fast path in linear space (one exp and one sqrt a cell),
+ * redone in log space for any row whose maximum would underflow. Other components are computed in
+ * log space (componentLogLikelihood). Memory: 8 N K bytes plus 8 N for the row maxima.
+ */
+import { componentLogLikelihood } from "./component-likelihood.ts";
+import type { PriorComponent } from "./effect-prior.ts";
+
+export interface LikelihoodMatrix {
+  readonly rows: number;
+  readonly columns: number;
+  /** Row-major, values[i * columns + k] = L_ik / max_j L_ij. */
+  readonly values: Float64Array;
+  /** log max_j L_ij, including the -log(sqrt(2 pi)) of the normal density. */
+  readonly logRowMax: Float64Array;
+}
+
+const logSqrtTwoPi = 0.9189385332046728;
+// Below this a row maximum computed in linear space has lost precision to gradual underflow.
+const smallestSafeMaximum = 1e-280;
+
+export function likelihoodMatrix(
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  components: readonly PriorComponent[],
+): LikelihoodMatrix {
+  const rows = y.length;
+  const columns = components.length;
+  const values = new Float64Array(rows * columns);
+  const logRowMax = new Float64Array(rows);
+  const fast = components.every((component) => component.kind === "point" || component.kind === "normal");
+  if (fast) fillGaussian(y, s, components, values, logRowMax);
+  else
+    for (let i = 0; i < rows; i++)
+      fillRowInLogSpace(y[i] as number, s[i] as number, components, values, logRowMax, i);
+  return { rows, columns, values, logRowMax };
+}
+
+function fillGaussian(
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  components: readonly PriorComponent[],
+  values: Float64Array,
+  logRowMax: Float64Array,
+): void {
+  const columns = components.length;
+  const means = new Float64Array(columns);
+  const variances = new Float64Array(columns);
+  components.forEach((component, k) => {
+    if (component.kind === "point") means[k] = component.at;
+    else if (component.kind === "normal") {
+      means[k] = component.mean;
+      variances[k] = component.scale * component.scale;
+    }
+  });
+  for (let i = 0; i < y.length; i++) {
+    const yi = y[i] as number;
+    const si = s[i] as number;
+    const seVariance = si * si;
+    const offset = i * columns;
+    let maximum = 0;
+    for (let k = 0; k < columns; k++) {
+      const variance = seVariance + (variances[k] as number);
+      const deviation = yi - (means[k] as number);
+      const value = Math.exp((-0.5 * deviation * deviation) / variance) / Math.sqrt(variance);
+      values[offset + k] = value;
+      if (value > maximum) maximum = value;
+    }
+    if (maximum > smallestSafeMaximum && maximum < Number.POSITIVE_INFINITY) {
+      const inverse = 1 / maximum;
+      for (let k = 0; k < columns; k++) values[offset + k] = (values[offset + k] as number) * inverse;
+      logRowMax[i] = Math.log(maximum) - logSqrtTwoPi;
+    } else {
+      fillRowInLogSpace(yi, si, components, values, logRowMax, i);
+    }
+  }
+}
+
+function fillRowInLogSpace(
+  y: number,
+  s: number,
+  components: readonly PriorComponent[],
+  values: Float64Array,
+  logRowMax: Float64Array,
+  row: number,
+): void {
+  const columns = components.length;
+  const offset = row * columns;
+  let maximum = Number.NEGATIVE_INFINITY;
+  for (let k = 0; k < columns; k++) {
+    const logValue = componentLogLikelihood(components[k] as PriorComponent, y, s);
+    values[offset + k] = logValue;
+    if (logValue > maximum) maximum = logValue;
+  }
+  for (let k = 0; k < columns; k++) values[offset + k] = Math.exp((values[offset + k] as number) - maximum);
+  logRowMax[row] = maximum;
+}
