@@ -12,6 +12,10 @@
  * (Cohen 1988, Table 2.4.1: d = 0.5 needs 64 per group).
  */
 import { requireFinite, requireOpenUnit, requirePositive, StatsInputError } from "./errors.ts";
+import {
+  meanMinimumDetectableEffect,
+  proportionMinimumDetectableEffect,
+} from "./minimum-detectable-effect.ts";
 import { twoProportionPower, twoProportionSampleSize } from "./sample-size-proportions.ts";
 import { type TailConvention, twoSampleTPower, twoSampleTSampleSize } from "./sample-size-t.ts";
 
@@ -257,5 +261,64 @@ export function planPower(input: PlanInput & { readonly n: number }): PowerPlan 
     power: powerOf(resolved, input.n),
     nPerArm: input.n,
     ...totals(resolved, input.n),
+  };
+}
+
+/** absoluteEffect / relativeEffect are the smallest upward difference detected with the power. */
+export interface MinimumDetectableEffectPlan extends PlanBasis {
+  readonly power: number;
+  readonly nPerArm: number;
+}
+
+/** The minimum detectable effect of a plan with n units in the control arm (upward effects). */
+export function planMinimumDetectableEffect(
+  input: Omit<PlanInput, "metric"> & {
+    readonly metric:
+      | { readonly kind: "proportion"; readonly baseline: number }
+      | { readonly kind: "mean"; readonly sd: number; readonly mean?: number };
+    readonly n: number;
+    readonly power?: number;
+  },
+): MinimumDetectableEffectPlan {
+  // Resolve the shared options with a placeholder effect, which the MDE search replaces.
+  const placeholder: PlanMetric =
+    input.metric.kind === "proportion"
+      ? {
+          kind: "proportion",
+          baseline: input.metric.baseline,
+          relativeEffect: 0.5 * (1 / input.metric.baseline - 1),
+        }
+      : { kind: "mean", sd: input.metric.sd, delta: input.metric.sd };
+  const resolved = resolve({ ...input, metric: placeholder });
+  const power = input.power ?? 0.8;
+  requireOpenUnit("power", power);
+  if (power <= resolved.alpha) throw new StatsInputError("power", `above alpha (${resolved.alpha})`, power);
+  if (!Number.isFinite(input.n) || input.n < 2) throw new StatsInputError("n", "at least 2", input.n);
+  const common = {
+    n: input.n,
+    power,
+    alpha: resolved.alphaPerComparison,
+    ratio: resolved.ratio,
+    convention: resolved.convention,
+  };
+  const mde =
+    input.metric.kind === "proportion"
+      ? proportionMinimumDetectableEffect({
+          ...common,
+          baseline: input.metric.baseline,
+          varianceFactor: resolved.varianceFactor,
+        })
+      : meanMinimumDetectableEffect({
+          ...common,
+          sd: resolved.sdAdjusted as number,
+          ...(input.metric.mean === undefined ? {} : { mean: input.metric.mean }),
+        });
+  return {
+    ...basis(resolved),
+    absoluteEffect: mde.absolute,
+    relativeEffect: mde.relative,
+    treatmentRate: input.metric.kind === "proportion" ? input.metric.baseline + mde.absolute : undefined,
+    power,
+    nPerArm: input.n,
   };
 }
