@@ -7,11 +7,13 @@
  * - /api/openapi.json is generated from the routes' zod schemas; /api/reference renders it.
  */
 import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
+import { sql } from "drizzle-orm";
 import type { Context } from "hono";
 import { bodyLimit } from "hono/body-limit";
 import { HTTPException } from "hono/http-exception";
 import { requestId } from "hono/request-id";
 import type { ContentfulStatusCode } from "hono/utils/http-status";
+import { importLimits } from "../import/import-file.ts";
 import { StatsInputError } from "../stats/errors.ts";
 import { authenticate } from "./auth.ts";
 import type { AppDeps, AppEnv } from "./context.ts";
@@ -33,7 +35,8 @@ export interface AppOptions {
   readonly logError?: (message: string, error: unknown) => void;
 }
 
-export const defaultMaximumBodyBytes = 20 * 1024 * 1024;
+/** Twice the importer's file limit: a file sent inside a JSON body grows when it is escaped. */
+export const defaultMaximumBodyBytes = 2 * importLimits.maxBytes;
 
 export const apiVersion = "1";
 
@@ -86,25 +89,43 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
     description: "A plumbline API token (plb_...). Each token belongs to one workspace and has a role.",
   });
 
+  const HealthSchema = z
+    .object({
+      status: z.enum(["ok", "unavailable"]),
+      database: z.enum(["ok", "unreachable"]),
+      apiVersion: z.string(),
+    })
+    .openapi("Health");
   app.openapi(
     createRoute({
       method: "get",
       path: "/api/health",
       tags: ["service"],
-      summary: "Whether the service is up (no token needed)",
+      summary: "Whether the service and its database answer (no token needed)",
       security: [],
       responses: {
         200: {
-          description: "The service answers",
-          content: {
-            "application/json": {
-              schema: z.object({ status: z.literal("ok"), apiVersion: z.string() }).openapi("Health"),
-            },
-          },
+          description: "The service and its database answer",
+          content: { "application/json": { schema: HealthSchema } },
+        },
+        503: {
+          description: "The database does not answer",
+          content: { "application/json": { schema: HealthSchema } },
         },
       },
     }),
-    (c) => c.json({ status: "ok" as const, apiVersion }, 200),
+    async (c) => {
+      try {
+        await deps.db.run(sql`select 1`);
+        return c.json({ status: "ok" as const, database: "ok" as const, apiVersion }, 200);
+      } catch (error) {
+        logError(
+          `plumbline: health check could not reach the database (request ${c.get("requestId")})`,
+          error,
+        );
+        return c.json({ status: "unavailable" as const, database: "unreachable" as const, apiVersion }, 503);
+      }
+    },
   );
 
   app.use("/api/v1/*", authenticate(deps.db));

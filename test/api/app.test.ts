@@ -52,7 +52,16 @@ describe("health and envelope", () => {
   it("answers /api/health without a token", async () => {
     const response = await app.request("/api/health");
     expect(response.status).toBe(200);
-    expect(await response.json()).toEqual({ status: "ok", apiVersion: "1" });
+    expect(await response.json()).toEqual({ status: "ok", database: "ok", apiVersion: "1" });
+  });
+
+  it("answers 503 from /api/health when the database does not answer", async () => {
+    const closed = await createTestDb();
+    const closedApp = createApp({ db: closed.db }, { logError: () => undefined });
+    closed.dispose();
+    const response = await closedApp.request("/api/health");
+    expect(response.status).toBe(503);
+    expect(await response.json()).toMatchObject({ status: "unavailable", database: "unreachable" });
   });
 
   it("answers unknown routes with the 404 envelope", async () => {

@@ -333,7 +333,37 @@ describe("authorization matrix", () => {
         .filter((route) => route.path.startsWith("/api/v1/") && route.method !== "ALL")
         .map((route) => `${route.method} ${route.path.replace(/:([A-Za-z]+)/g, "{$1}")}`),
     );
+    const missing = [...new Set([...documented, ...registered])].filter((route) => !inMatrix.has(route));
+    expect(missing, "add these routes to the matrix in test/api/authorization-matrix.test.ts").toEqual([]);
     expect([...documented].sort()).toEqual([...inMatrix].sort());
     expect([...registered].sort()).toEqual([...inMatrix].sort());
+  });
+
+  it("refuses every documented route without a usable token, whatever its parameters", async () => {
+    // Derived from the document itself, so a route added later is covered here at once.
+    const document = (await (await app.request("/api/openapi.json")).json()) as {
+      paths: Record<string, Record<string, unknown>>;
+    };
+    let checked = 0;
+    for (const [template, item] of Object.entries(document.paths)) {
+      if (!template.startsWith("/api/v1/")) continue;
+      const path = template.replace(/\{[^}]+\}/g, "1");
+      for (const method of Object.keys(item)) {
+        for (const credential of ["missing", "malformed", "wrong-scheme", "unknown", "revoked"] as const) {
+          const authorization = authorizationHeader(alpha, credential);
+          const response = await app.request(path, {
+            method: method.toUpperCase(),
+            headers: {
+              ...(authorization ? { authorization } : {}),
+              "content-type": "application/json",
+            },
+            ...(method === "get" || method === "delete" ? {} : { body: "{}" }),
+          });
+          expect(response.status, `${method.toUpperCase()} ${path} with ${credential}`).toBe(401);
+          checked += 1;
+        }
+      }
+    }
+    expect(checked).toBe(routes.length * 5);
   });
 });
