@@ -11,6 +11,7 @@ type CommandModule = { run(args: string[], io: CommandIo): Promise<number>; summ
 const commands: Record<string, () => Promise<CommandModule>> = {
   // (one line per command, keep alphabetical)
   backlog: () => import("./commands/backlog.ts"),
+  calibrate: () => import("./commands/calibrate.ts"),
   demo: () => import("./commands/demo.ts"),
   design: () => import("./commands/design.ts"),
   experiments: () => import("./commands/experiments.ts"),
@@ -19,6 +20,7 @@ const commands: Record<string, () => Promise<CommandModule>> = {
   risk: () => import("./commands/risk.ts"),
   serve: () => import("./commands/serve.ts"),
   size: () => import("./commands/size.ts"),
+  "skew-check": () => import("./commands/skew-check.ts"),
   token: () => import("./commands/token.ts"),
   workspace: () => import("./commands/workspace.ts"),
 };
