@@ -52,6 +52,8 @@ export interface ReviewSettings {
 /** The review as served: the program review without its per-test table, plus provenance. */
 export type ReviewSummary = Omit<ProgramReview, "tests"> & {
   readonly settings: ReviewSettings;
+  /** The metric family reviewed (the filter's, or the family with the most primary results). */
+  readonly metricFamily: string;
   readonly dataFingerprint: string;
   readonly families: readonly { readonly family: string; readonly tests: number }[];
   readonly reviewedTests: number;
@@ -139,6 +141,7 @@ export async function runReview(
   const summary: ReviewSummary = {
     ...rest,
     settings,
+    metricFamily: data.family,
     dataFingerprint: data.fingerprint,
     families: data.families,
     reviewedTests: data.reviewedTests.length,
