@@ -54,6 +54,16 @@ describe("experiments", () => {
     expect(await keysOf("?to=2024-01-08")).toEqual(["alpha-001"]);
   });
 
+  it("lists each experiment with its metrics' derived lift, primary first", async () => {
+    const page = await getJson<
+      Page<{ key: string; results: { metricKey: string; isPrimary: boolean; lift: number }[] }>
+    >("/api/v1/experiments?limit=1");
+    expect(page.body.items[0]?.results).toEqual([
+      { metricKey: "conversion", isPrimary: true, lift: 0.02, liftSe: 0.01, srmFlagged: false },
+      { metricKey: "alpha-latency", isPrimary: false, lift: -0.01, liftSe: 0.005, srmFlagged: false },
+    ]);
+  });
+
   it("paginates with the total across pages", async () => {
     const first = await getJson<Page<{ key: string }>>("/api/v1/experiments?limit=2");
     expect(first.body).toMatchObject({ total: 3, limit: 2, offset: 0 });

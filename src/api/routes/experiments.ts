@@ -4,7 +4,21 @@
  * asking for another workspace's experiment answers 404, exactly as for a key that never existed.
  */
 import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
-import { and, asc, count, eq, exists, gte, isNotNull, isNull, lte, or, type SQL } from "drizzle-orm";
+import {
+  and,
+  asc,
+  count,
+  desc,
+  eq,
+  exists,
+  gte,
+  inArray,
+  isNotNull,
+  isNull,
+  lte,
+  or,
+  type SQL,
+} from "drizzle-orm";
 import { experiments, metrics, results } from "../../db/schema.ts";
 import { requireRole } from "../auth.ts";
 import {
@@ -51,6 +65,20 @@ export const ExperimentSchema = z
     updatedAt: z.string().nullable(),
   })
   .openapi("Experiment");
+
+const ResultSummarySchema = z
+  .object({
+    metricKey: z.string(),
+    isPrimary: z.boolean(),
+    lift: z.number().openapi({ description: "Relative lift, positive = good" }),
+    liftSe: z.number(),
+    srmFlagged: z.boolean(),
+  })
+  .openapi("ResultSummary");
+
+const ExperimentListItemSchema = ExperimentSchema.extend({
+  results: z.array(ResultSummarySchema).openapi({ description: "Each metric's derived lift, primary first" }),
+}).openapi("ExperimentListItem");
 
 const ExperimentDetailSchema = ExperimentSchema.extend({
   results: z.array(ResultSchema),
@@ -115,6 +143,27 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
     return row;
   }
 
+  async function resultSummaries(experimentIds: number[]) {
+    const byExperiment = new Map<number, z.infer<typeof ResultSummarySchema>[]>();
+    if (experimentIds.length === 0) return byExperiment;
+    const rows = await db
+      .select({
+        experimentId: results.experimentId,
+        metricKey: metrics.key,
+        isPrimary: results.isPrimary,
+        lift: results.lift,
+        liftSe: results.liftSe,
+        srmFlagged: results.srmFlagged,
+      })
+      .from(results)
+      .innerJoin(metrics, eq(metrics.id, results.metricId))
+      .where(inArray(results.experimentId, experimentIds))
+      .orderBy(desc(results.isPrimary), asc(metrics.key));
+    for (const { experimentId, ...summary } of rows)
+      byExperiment.set(experimentId, [...(byExperiment.get(experimentId) ?? []), summary]);
+    return byExperiment;
+  }
+
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
@@ -126,7 +175,7 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
         responses: {
           200: {
             description: "A page of experiments",
-            content: { "application/json": { schema: pageSchema(ExperimentSchema) } },
+            content: { "application/json": { schema: pageSchema(ExperimentListItemSchema) } },
           },
           ...errorResponses(...authenticatedErrors),
         },
@@ -167,10 +216,9 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
             .offset(query.offset),
           db.select({ n: count() }).from(experiments).where(where),
         ]);
-        return c.json(
-          { items: rows.map(toView), total: totals[0]?.n ?? 0, limit: query.limit, offset: query.offset },
-          200,
-        );
+        const summaries = await resultSummaries(rows.map((row) => row.id));
+        const items = rows.map((row) => ({ ...toView(row), results: summaries.get(row.id) ?? [] }));
+        return c.json({ items, total: totals[0]?.n ?? 0, limit: query.limit, offset: query.offset }, 200);
       },
     )
     .openapi(
