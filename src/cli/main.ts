@@ -17,6 +17,8 @@ const commands: Record<string, () => Promise<CommandModule>> = {
   experiments: () => import("./commands/experiments.ts"),
   forecast: () => import("./commands/forecast.ts"),
   import: () => import("./commands/import.ts"),
+  review: () => import("./commands/review.ts"),
+  reviews: () => import("./commands/reviews.ts"),
   risk: () => import("./commands/risk.ts"),
   serve: () => import("./commands/serve.ts"),
   size: () => import("./commands/size.ts"),
