@@ -20,11 +20,8 @@ import type { AppDeps, AppEnv } from "./context.ts";
 import { ApiError, type ErrorCode, type ErrorIssue, errorBody } from "./errors.ts";
 import { renderLandingPage } from "./landing-page.ts";
 import { renderReferencePage } from "./reference-page.ts";
-import { backlogRoutes } from "./routes/backlog.ts";
 import { calculatorsRoutes } from "./routes/calculators.ts";
-import { calibrateRoutes } from "./routes/calibrate.ts";
 import { experimentsRoutes } from "./routes/experiments.ts";
-import { forecastRoutes } from "./routes/forecast.ts";
 import { importsRoutes } from "./routes/imports.ts";
 import { metricsRoutes } from "./routes/metrics.ts";
 import { realizedRoutes } from "./routes/realized.ts";
@@ -135,14 +132,11 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
   app.use("/api/v1/*", authenticate(deps.db));
   app.route("/api/v1", workspacesRoutes(deps));
   app.route("/api/v1", tokensRoutes(deps));
-  app.route("/api/v1", backlogRoutes(deps));
-  app.route("/api/v1", forecastRoutes(deps));
   app.route("/api/v1", metricsRoutes(deps));
   app.route("/api/v1", experimentsRoutes(deps));
   app.route("/api/v1", resultsRoutes(deps));
   app.route("/api/v1", realizedRoutes(deps));
   app.route("/api/v1", importsRoutes(deps));
-  app.route("/api/v1", calibrateRoutes(deps));
   app.route("/api/v1", calculatorsRoutes(deps));
 
   app.doc("/api/openapi.json", documentConfig);
