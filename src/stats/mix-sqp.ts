@@ -64,6 +64,8 @@ const smallestStep = 1e-12;
 // Weights below this share of the total are set to zero: they cannot matter to the likelihood and
 // would keep their columns in the Hessian.
 const zeroShare = 1e-13;
+const maximumEntering = 10;
+const sparseStartColumns = 32;
 
 export function solveMixtureWeights(
   problem: MixtureProblem,
@@ -118,8 +120,11 @@ function solve(
     for (let k = 0; k < columns; k++) x[k] = Math.max(0, start[k] as number);
   let startSum = x.reduce((sum, value) => sum + value, 0);
   if (!(startSum > 0) || !Number.isFinite(startSum)) {
-    x.fill(1 / columns);
-    startSum = 1;
+    // Many columns (a fine theta grid): start on an evenly spread subset, so that the first
+    // Hessian is small; the other columns enter as their gradients ask.
+    const spacing = Math.max(1, Math.floor(columns / sparseStartColumns));
+    for (let k = 0; k < columns; k++) x[k] = k === 0 || k % spacing === 0 ? 1 : 0;
+    startSum = x.reduce((sum, value) => sum + value, 0);
   }
   for (let k = 0; k < columns; k++) {
     x[k] = (x[k] as number) / startSum;
@@ -160,10 +165,18 @@ function solve(
     if (gap <= tolerance || iterations >= maxIterations) break;
     iterations++;
 
-    // Working columns: positive weight, or a gradient that asks the weight to grow.
+    // Working columns: positive weight, plus the columns whose gradient asks most strongly to grow
+    // (as many as are in the support, at least maximumEntering).
     const working: number[] = [];
-    for (let k = 0; k < columns; k++)
-      if ((x[k] as number) > 0 || (gradient[k] as number) < 0) working.push(k);
+    const entering: number[] = [];
+    for (let k = 0; k < columns; k++) {
+      if ((x[k] as number) > 0) working.push(k);
+      else if ((gradient[k] as number) < 0) entering.push(k);
+    }
+    entering.sort((a, b) => (gradient[a] as number) - (gradient[b] as number));
+    const enteringCount = Math.min(entering.length, Math.max(maximumEntering, working.length));
+    for (let e = 0; e < enteringCount; e++) working.push(entering[e] as number);
+    working.sort((a, b) => a - b);
     const size = working.length;
     const workingIndex = Int32Array.from(working);
     const hessian = new Float64Array(size * size);
@@ -360,6 +373,7 @@ export function solveNonNegativeQuadratic(
   // the QP is only a search direction, so this cannot change the optimum.
   let ridge = 0;
   let entered = -1;
+  let atFreeMinimum = false;
   const maxSteps = 10 * size + 50;
   for (let iteration = 0; iteration < maxSteps; iteration++) {
     let scale = 0;
@@ -371,12 +385,18 @@ export function solveNonNegativeQuadratic(
     }
     const freeIndex: number[] = [];
     for (let j = 0; j < size; j++) if (free[j]) freeIndex.push(j);
-    const newton = freeIndex.length > 0 ? solveFreeSystem(hessian, gradient, freeIndex, size, ridge) : [];
+    // After a full Newton step y minimises the model on the free set: re-solving would only chase
+    // rounding noise, so go straight to the multiplier test.
+    const newton =
+      freeIndex.length > 0 && !atFreeMinimum
+        ? solveFreeSystem(hessian, gradient, freeIndex, size, ridge)
+        : [];
     let stepNorm = 0;
     for (const value of newton) stepNorm = Math.max(stepNorm, Math.abs(value));
     let yNorm = 0;
     for (let j = 0; j < size; j++) yNorm = Math.max(yNorm, Math.abs(y[j] as number));
-    if (stepNorm <= 1e-15 * (1 + yNorm)) {
+    if (atFreeMinimum || stepNorm <= 1e-15 * (1 + yNorm)) {
+      atFreeMinimum = false;
       let entering = -1;
       let mostNegative = -1e-14 * (1 + scale);
       for (let j = 0; j < size; j++) {
@@ -414,7 +434,7 @@ export function solveNonNegativeQuadratic(
     if (blocking >= 0) {
       y[blocking] = 0;
       free[blocking] = 0;
-    }
+    } else atFreeMinimum = true;
   }
   return y;
 }
