@@ -32,16 +32,14 @@ beforeAll(async () => {
       family: "conversion",
     })
     .returning();
-  await handle.db
-    .insert(metrics)
-    .values({
-      workspaceId,
-      key: "basket_value",
-      name: "Basket value",
-      kind: "continuous",
-      direction: "increase",
-      family: "revenue",
-    });
+  await handle.db.insert(metrics).values({
+    workspaceId,
+    key: "basket_value",
+    name: "Basket value",
+    kind: "continuous",
+    direction: "increase",
+    family: "revenue",
+  });
   // An invented history of 60 conversion tests: 70 % null, the rest N(0.01, 0.01^2), SE 0.008.
   const random = createRandom(2024);
   for (let index = 0; index < 60; index++) {
