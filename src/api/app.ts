@@ -21,6 +21,7 @@ import { ApiError, type ErrorCode, type ErrorIssue, errorBody } from "./errors.t
 import { renderLandingPage } from "./landing-page.ts";
 import { renderReferencePage } from "./reference-page.ts";
 import { calculatorsRoutes } from "./routes/calculators.ts";
+import { calibrateRoutes } from "./routes/calibrate.ts";
 import { experimentsRoutes } from "./routes/experiments.ts";
 import { importsRoutes } from "./routes/imports.ts";
 import { metricsRoutes } from "./routes/metrics.ts";
@@ -137,6 +138,7 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
   app.route("/api/v1", resultsRoutes(deps));
   app.route("/api/v1", realizedRoutes(deps));
   app.route("/api/v1", importsRoutes(deps));
+  app.route("/api/v1", calibrateRoutes(deps));
   app.route("/api/v1", calculatorsRoutes(deps));
 
   app.doc("/api/openapi.json", documentConfig);
