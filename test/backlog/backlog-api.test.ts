@@ -24,14 +24,14 @@ beforeAll(async () => {
 });
 afterAll(() => handle.dispose());
 
-function call(
+async function call(
   method: string,
   path: string,
   body?: unknown,
   token = writeToken,
   contentType = "application/json",
-) {
-  return app.request(`/api/v1${path}`, {
+): Promise<Response> {
+  return await app.request(`/api/v1${path}`, {
     method,
     headers: {
       authorization: `Bearer ${token}`,
