@@ -15,6 +15,7 @@ const commands: Record<string, () => Promise<CommandModule>> = {
   demo: () => import("./commands/demo.ts"),
   design: () => import("./commands/design.ts"),
   experiments: () => import("./commands/experiments.ts"),
+  fit: () => import("./commands/fit.ts"),
   forecast: () => import("./commands/forecast.ts"),
   import: () => import("./commands/import.ts"),
   review: () => import("./commands/review.ts"),
