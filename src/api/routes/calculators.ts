@@ -68,13 +68,10 @@ const RiskResponseSchema = z
 
 const DesignRequestSchema = z
   .object({
-    effect: z
-      .number()
-      .optional()
-      .openapi({
-        description: "True effect assumed (non-zero); omit to ask for the effect at `power`",
-        example: 2,
-      }),
+    effect: z.number().optional().openapi({
+      description: "True effect assumed (non-zero); omit to ask for the effect at `power`",
+      example: 2,
+    }),
     standardError: z
       .number()
       .optional()
@@ -128,12 +125,9 @@ const SizeRequestSchema = z
       .openapi({ description: "Continuous metric: baseline mean, for a relative mde" }),
     alpha: z.number().optional().openapi({ description: "Two-sided level of the family (default 0.05)" }),
     power: z.number().optional().openapi({ description: "Target power (default 0.8)" }),
-    n: z
-      .number()
-      .optional()
-      .openapi({
-        description: "Units in the control arm: answer the power (or, without an effect, the MDE)",
-      }),
+    n: z.number().optional().openapi({
+      description: "Units in the control arm: answer the power (or, without an effect, the MDE)",
+    }),
     ratio: z
       .number()
       .optional()
