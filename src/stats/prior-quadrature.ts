@@ -237,12 +237,97 @@ export function logGamma(x: number): number {
   return 0.5 * Math.log(2 * Math.PI) + (shifted + 0.5) * Math.log(base) - base + Math.log(series);
 }
 
+const studentTLogConstants = new Map<number, number>();
+
 /** Density of Student's t with df degrees of freedom at x. */
 export function studentTDensity(x: number, degreesOfFreedom: number): number {
   if (!(degreesOfFreedom > 0) || Number.isNaN(x)) return Number.NaN;
-  const logConstant =
-    logGamma((degreesOfFreedom + 1) / 2) -
-    logGamma(degreesOfFreedom / 2) -
-    0.5 * Math.log(degreesOfFreedom * Math.PI);
+  let logConstant = studentTLogConstants.get(degreesOfFreedom);
+  if (logConstant === undefined) {
+    // Cached: the optimiser evaluates the density millions of times at a handful of df.
+    logConstant =
+      logGamma((degreesOfFreedom + 1) / 2) -
+      logGamma(degreesOfFreedom / 2) -
+      0.5 * Math.log(degreesOfFreedom * Math.PI);
+    if (studentTLogConstants.size < 64) studentTLogConstants.set(degreesOfFreedom, logConstant);
+  }
   return Math.exp(logConstant - ((degreesOfFreedom + 1) / 2) * Math.log1p((x * x) / degreesOfFreedom));
+}
+
+/** int g(x) dx and int x g(x) dx over [a, b] (b may be +Infinity). */
+export interface MassAndMoment {
+  readonly mass: number;
+  readonly moment: number;
+}
+
+/**
+ * The integrals of g and of x g over [a, b] in one adaptive pass (the same nodes serve both;
+ * a piece is accepted when both agree between the whole and its halves). b = +Infinity uses
+ * the map x = a + scale u / (1 - u) of integrateAdaptive.
+ */
+export function integrateMassAndMoment(
+  g: (x: number) => number,
+  a: number,
+  b: number,
+  options: AdaptiveOptions = {},
+): MassAndMoment {
+  if (!(a < b)) return { mass: 0, moment: 0 };
+  const absoluteTolerance = options.absoluteTolerance ?? 1e-14;
+  const relativeTolerance = options.relativeTolerance ?? 1e-11;
+  const maximumDepth = options.maximumDepth ?? 40;
+  const scale = options.tailScale ?? 1;
+  const infinite = b === Number.POSITIVE_INFINITY;
+  const lower = infinite ? 0 : a;
+  const upper = infinite ? 1 : b;
+  const rule = adaptiveRule;
+  const piece = (from: number, to: number): [number, number] => {
+    const half = (to - from) / 2;
+    const middle = (from + to) / 2;
+    let mass = 0;
+    let moment = 0;
+    for (let i = 0; i < rule.nodes.length; i++) {
+      const u = middle + half * rule.nodes[i]!;
+      let x = u;
+      let jacobian = 1;
+      if (infinite) {
+        const complement = 1 - u;
+        x = a + (scale * u) / complement;
+        jacobian = scale / (complement * complement);
+      }
+      const value = g(x);
+      if (value === 0) continue;
+      const weighted = rule.weights[i]! * value * jacobian;
+      mass += weighted;
+      moment += weighted * x;
+    }
+    return [mass * half, moment * half];
+  };
+  const whole = piece(lower, upper);
+  const massTarget = Math.max(absoluteTolerance, relativeTolerance * Math.abs(whole[0]));
+  const momentTarget = Math.max(absoluteTolerance, relativeTolerance * Math.abs(whole[1]));
+  const refinePair = (
+    from: number,
+    to: number,
+    estimate: [number, number],
+    massGoal: number,
+    momentGoal: number,
+    depthLeft: number,
+  ): [number, number] => {
+    const middle = (from + to) / 2;
+    const left = piece(from, middle);
+    const right = piece(middle, to);
+    const mass = left[0] + right[0];
+    const moment = left[1] + right[1];
+    if (
+      depthLeft <= 0 ||
+      (Math.abs(mass - estimate[0]) <= massGoal && Math.abs(moment - estimate[1]) <= momentGoal)
+    ) {
+      return [mass, moment];
+    }
+    const l = refinePair(from, middle, left, massGoal / Math.SQRT2, momentGoal / Math.SQRT2, depthLeft - 1);
+    const r = refinePair(middle, to, right, massGoal / Math.SQRT2, momentGoal / Math.SQRT2, depthLeft - 1);
+    return [l[0] + r[0], l[1] + r[1]];
+  };
+  const [mass, moment] = refinePair(lower, upper, whole, massTarget, momentTarget, maximumDepth);
+  return { mass, moment };
 }

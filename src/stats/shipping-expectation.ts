@@ -19,7 +19,12 @@
  */
 import { normalCdf, normalPdf } from "./distributions.ts";
 import type { EffectPrior, PriorComponent } from "./effect-prior.ts";
-import { bivariateNormalUpperProbability, integrateAdaptive, studentTDensity } from "./prior-quadrature.ts";
+import {
+  bivariateNormalUpperProbability,
+  integrateAdaptive,
+  integrateMassAndMoment,
+  studentTDensity,
+} from "./prior-quadrature.ts";
 
 /** P(theta in (lower, upper], y > threshold) and E[theta 1{theta in (lower, upper]} 1{y > threshold}]. */
 export interface ShippingPartial {
@@ -281,21 +286,19 @@ function halfTPartial(
     if (point > from && point < to) breaks.push(point);
   }
   breaks.sort((left, right) => left - right);
-  const tolerance = { absoluteTolerance: 1e-15, relativeTolerance: 1e-12, tailScale: scale };
   let probability = 0;
   let magnitudeMoment = 0;
   for (let i = 0; i + 1 < breaks.length; i++) {
     const a = breaks[i]!;
     const b = breaks[i + 1]!;
     if (!(a < b)) continue;
-    probability += integrateAdaptive((x) => density(x) * ship(x), a, b, {
-      ...tolerance,
+    const part = integrateMassAndMoment((x) => density(x) * ship(x), a, b, {
+      absoluteTolerance: 1e-15,
+      relativeTolerance: 1e-12,
       tailScale: Math.max(scale, a),
     });
-    magnitudeMoment += integrateAdaptive((x) => x * density(x) * ship(x), a, b, {
-      ...tolerance,
-      tailScale: Math.max(scale, a),
-    });
+    probability += part.mass;
+    magnitudeMoment += part.moment;
   }
   return { probability, effectMoment: sign * magnitudeMoment };
 }
