@@ -27,6 +27,24 @@ export function requireRole(c: Context<AppEnv>, role: TokenRole): AuthContext {
   return auth;
 }
 
+/** Middleware form of requireRole: refuses with 403 before the request is even validated. */
+export function roleGuard(role: TokenRole): MiddlewareHandler<AppEnv> {
+  return async (c, next) => {
+    requireRole(c, role);
+    await next();
+  };
+}
+
+/**
+ * The least role a route needs, for its createRoute config: `createRoute({ ...requiredRole("write"), ... })`.
+ * It guards the route (403 before validation, so a read token learns nothing from a write route's
+ * answers) and states the role in the OpenAPI document as `x-required-role`, where the reference
+ * page and the authorization matrix test read it.
+ */
+export function requiredRole<Role extends TokenRole>(role: Role) {
+  return { "x-required-role": role, middleware: roleGuard(role) };
+}
+
 /**
  * Resolves `Authorization: Bearer <token>` into c.get("auth"). Unknown, revoked, missing and
  * malformed tokens all get the same 401 so that the answer reveals nothing about which tokens exist.

@@ -110,7 +110,10 @@ function renderOperation(
   if (typeof operation["description"] === "string")
     parts.push(`<p>${escapeHtml(operation["description"])}</p>`);
   const security = operation["security"];
+  const role = operation["x-required-role"];
   if (Array.isArray(security) && security.length === 0) parts.push(`<p class="muted">No token needed.</p>`);
+  else if (typeof role === "string")
+    parts.push(`<p class="muted">Needs a <strong>${escapeHtml(role)}</strong> token (or a higher role).</p>`);
 
   const parameters = Array.isArray(operation["parameters"]) ? (operation["parameters"] as JsonObject[]) : [];
   if (parameters.length > 0) {

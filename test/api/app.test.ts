@@ -245,6 +245,7 @@ describe("OpenAPI document and pages", () => {
       paths: Record<string, unknown>;
     };
     for (const path of Object.keys(document.paths)) expect(html).toContain(path);
+    expect(html).toContain("Needs a <strong>admin</strong> token");
     expect(html).not.toContain("<script");
     expect(html).not.toMatch(/(src|href)="https?:/);
   });

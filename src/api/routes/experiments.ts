@@ -20,7 +20,7 @@ import {
   type SQL,
 } from "drizzle-orm";
 import { experiments, metrics, results } from "../../db/schema.ts";
-import { requireRole } from "../auth.ts";
+import { requiredRole } from "../auth.ts";
 import {
   authenticatedErrors,
   errorResponses,
@@ -167,6 +167,7 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/experiments",
         tags: ["experiments"],
@@ -223,6 +224,7 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/experiments/{key}",
         tags: ["experiments"],
@@ -251,6 +253,7 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("write"),
         method: "delete",
         path: "/experiments/{key}",
         tags: ["experiments"],
@@ -266,7 +269,7 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
         },
       }),
       async (c) => {
-        const auth = requireRole(c, "write");
+        const auth = c.get("auth");
         const { key } = c.req.valid("param");
         const experiment = await findExperiment(auth.workspaceId, key);
         // Results and realized measurements go with it (foreign keys cascade).

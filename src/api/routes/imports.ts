@@ -9,7 +9,7 @@ import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
 import { and, count, desc, eq } from "drizzle-orm";
 import { imports } from "../../db/schema.ts";
 import { type ImportRequest, importFile } from "../../import/import-file.ts";
-import { requireRole } from "../auth.ts";
+import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses, PaginationQuerySchema, pageSchema } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
@@ -111,6 +111,7 @@ export function importsRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
+        ...requiredRole("write"),
         method: "post",
         path: "/imports",
         tags: ["imports"],
@@ -143,7 +144,7 @@ export function importsRoutes({ db }: AppDeps): ApiRouter {
         },
       }),
       async (c) => {
-        const auth = requireRole(c, "write");
+        const auth = c.get("auth");
         const contentType = (c.req.header("content-type") ?? "").toLowerCase();
         let request: ImportRequest;
         if (contentType.startsWith("application/json")) {
@@ -197,6 +198,7 @@ export function importsRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/imports",
         tags: ["imports"],
@@ -231,6 +233,7 @@ export function importsRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/imports/{id}",
         tags: ["imports"],

@@ -5,6 +5,7 @@
 import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
 import { and, asc, count, eq } from "drizzle-orm";
 import { metrics, results } from "../../db/schema.ts";
+import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
@@ -57,6 +58,7 @@ export function metricsRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/metrics",
         tags: ["metrics"],
@@ -73,6 +75,7 @@ export function metricsRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/metrics/{key}",
         tags: ["metrics"],

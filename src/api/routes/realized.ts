@@ -6,6 +6,7 @@ import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
 import { and, asc, count, eq, type SQL } from "drizzle-orm";
 import type { Database } from "../../db/client.ts";
 import { experiments, metrics, realizedMeasurements } from "../../db/schema.ts";
+import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses, PaginationQuerySchema, pageSchema } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 
@@ -76,6 +77,7 @@ export async function realizedOfExperiment(
 export function realizedRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>().openapi(
     createRoute({
+      ...requiredRole("read"),
       method: "get",
       path: "/realized-measurements",
       tags: ["realized measurements"],

@@ -7,6 +7,7 @@ import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
 import { and, asc, count, desc, eq, type SQL } from "drizzle-orm";
 import type { Database } from "../../db/client.ts";
 import { experiments, metrics, results } from "../../db/schema.ts";
+import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses, PaginationQuerySchema, pageSchema } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
@@ -97,6 +98,7 @@ export function resultsRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/results",
         tags: ["results"],
@@ -143,6 +145,7 @@ export function resultsRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/results/{id}",
         tags: ["results"],

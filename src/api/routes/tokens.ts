@@ -3,7 +3,7 @@
  * response once and never again), revoke. A revoked token answers 401 from then on.
  */
 import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
-import { requireRole } from "../auth.ts";
+import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
@@ -56,6 +56,7 @@ export function tokensRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
+        ...requiredRole("admin"),
         method: "get",
         path: "/tokens",
         tags: ["tokens"],
@@ -69,13 +70,14 @@ export function tokensRoutes({ db }: AppDeps): ApiRouter {
         },
       }),
       async (c) => {
-        const auth = requireRole(c, "admin");
+        const auth = c.get("auth");
         const tokens = await listTokens(db, auth.workspaceId);
         return c.json({ items: tokens.map(publicSummary) }, 200);
       },
     )
     .openapi(
       createRoute({
+        ...requiredRole("admin"),
         method: "post",
         path: "/tokens",
         tags: ["tokens"],
@@ -90,7 +92,7 @@ export function tokensRoutes({ db }: AppDeps): ApiRouter {
         },
       }),
       async (c) => {
-        const auth = requireRole(c, "admin");
+        const auth = c.get("auth");
         const body = c.req.valid("json");
         const issued = await issueToken(db, {
           workspaceId: auth.workspaceId,
@@ -102,6 +104,7 @@ export function tokensRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("admin"),
         method: "delete",
         path: "/tokens/{id}",
         tags: ["tokens"],
@@ -116,7 +119,7 @@ export function tokensRoutes({ db }: AppDeps): ApiRouter {
         },
       }),
       async (c) => {
-        const auth = requireRole(c, "admin");
+        const auth = c.get("auth");
         const { id } = c.req.valid("param");
         const revoked = await revokeToken(db, auth.workspaceId, id);
         if (!revoked) throw new ApiError(404, "not_found", `no token ${id} in this workspace`);

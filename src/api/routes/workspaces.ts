@@ -5,6 +5,7 @@
 import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
 import { count, eq } from "drizzle-orm";
 import { experiments, imports, metrics, realizedMeasurements, results, workspaces } from "../../db/schema.ts";
+import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
@@ -32,6 +33,7 @@ export const WorkspaceSchema = z
 export function workspacesRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>().openapi(
     createRoute({
+      ...requiredRole("read"),
       method: "get",
       path: "/workspace",
       tags: ["workspace"],
