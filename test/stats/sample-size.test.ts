@@ -69,6 +69,19 @@ const propFixture = readCalculatorFixture<never>("power-prop-test").cases as unk
   sampleSize: PropSizeCase[];
 };
 
+const unequalFixture = readCalculatorFixture<never>("unequal-allocation-t").cases as unknown as {
+  power: {
+    n: number;
+    delta: number;
+    sd: number;
+    ratio: number;
+    alpha: number;
+    twoSidedStrict: number;
+    oneSided: number;
+  }[];
+  sampleSize: { power: number; delta: number; sd: number; ratio: number; alpha: number; n: number }[];
+};
+
 describe("two-sample t (R power.t.test)", () => {
   it("R's documented examples", () => {
     // ?power.t.test: power.t.test(n = 20, delta = 1) -> power 0.8689528;
@@ -106,6 +119,52 @@ describe("two-sample t (R power.t.test)", () => {
     ] as const) {
       const n = twoSampleTSampleSize({ power: 0.8, delta: d, sd: 1 });
       expectClose("n per group (Cohen's rounding)", { d }, n, tabled, { absolute: 0.5 });
+    }
+  });
+  it("unequal allocation matches statsmodels TTestIndPower (fixture from generate.py)", () => {
+    // statsmodels' two-sided power counts both tails (our "strict"); its noncentral t is Boost's
+    // (scipy 1.10), which differs from AS 243 / R by up to ~1e-9, and solve_power stops at a
+    // looser tolerance than ours, hence these tolerances.
+    const statsmodelsPowerTolerance = { absolute: 2e-9 };
+    const statsmodelsSampleSizeTolerance = { relative: 2e-7 };
+    for (const example of unequalFixture.power) {
+      const design = {
+        n: example.n,
+        delta: example.delta,
+        sd: example.sd,
+        ratio: example.ratio,
+        alpha: example.alpha,
+      };
+      expectClose(
+        "TTestIndPower two-sided",
+        design,
+        twoSampleTPower({ ...design, convention: "strict" }),
+        example.twoSidedStrict,
+        statsmodelsPowerTolerance,
+      );
+      expectClose(
+        "TTestIndPower larger",
+        design,
+        twoSampleTPower({ ...design, sides: "oneSided" }),
+        example.oneSided,
+        statsmodelsPowerTolerance,
+      );
+    }
+    for (const example of unequalFixture.sampleSize) {
+      const design = {
+        power: example.power,
+        delta: example.delta,
+        sd: example.sd,
+        ratio: example.ratio,
+        alpha: example.alpha,
+      };
+      expectClose(
+        "TTestIndPower solve_power nobs1",
+        design,
+        twoSampleTSampleSize({ ...design, convention: "strict" }),
+        example.n,
+        statsmodelsSampleSizeTolerance,
+      );
     }
   });
   it("unequal allocation: ratio 1 is R; a 2:1 split needs fewer control units than 1:1 but more in total", () => {
