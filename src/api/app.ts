@@ -29,6 +29,7 @@ import { importsRoutes } from "./routes/imports.ts";
 import { metricsRoutes } from "./routes/metrics.ts";
 import { realizedRoutes } from "./routes/realized.ts";
 import { resultsRoutes } from "./routes/results.ts";
+import { reviewRoutes } from "./routes/review.ts";
 import { tokensRoutes } from "./routes/tokens.ts";
 import { workspacesRoutes } from "./routes/workspaces.ts";
 
@@ -144,6 +145,7 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
   app.route("/api/v1", importsRoutes(deps));
   app.route("/api/v1", calibrateRoutes(deps));
   app.route("/api/v1", calculatorsRoutes(deps));
+  app.route("/api/v1", reviewRoutes(deps));
 
   app.doc("/api/openapi.json", documentConfig);
 

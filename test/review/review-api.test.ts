@@ -1,0 +1,119 @@
+/** The review routes in process with app.request(). */
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { createApp } from "../../src/api/app.ts";
+import { issueToken } from "../../src/api/tokens.ts";
+import { generateDemo } from "../../src/demo/generate-demo.ts";
+import { createTestDb } from "../helpers/db.ts";
+import { seedHistory } from "./seed-history.ts";
+
+let handle: Awaited<ReturnType<typeof createTestDb>>;
+let app: ReturnType<typeof createApp>;
+const tokens: Record<"read" | "write", string> = { read: "", write: "" };
+
+function get(path: string, token = tokens.read) {
+  return app.request(path, { headers: { authorization: `Bearer ${token}` } });
+}
+
+function post(path: string, body: unknown, token = tokens.write) {
+  return app.request(path, {
+    method: "POST",
+    headers: { authorization: `Bearer ${token}`, "content-type": "application/json" },
+    body: JSON.stringify(body),
+  });
+}
+
+beforeAll(async () => {
+  handle = await createTestDb();
+  app = createApp({ db: handle.db }, { logError: () => undefined });
+  const { workspaceId } = await seedHistory(
+    handle.db,
+    "quillfern",
+    generateDemo({ seed: 6, experiments: 300 }).truth.experiments,
+  );
+  tokens.read = (await issueToken(handle.db, { workspaceId, role: "read" })).token;
+  tokens.write = (await issueToken(handle.db, { workspaceId, role: "write" })).token;
+}, 60_000);
+afterAll(() => handle.dispose());
+
+const query = "family=conversion&priorFamily=skewed";
+
+describe("GET /api/v1/review", () => {
+  it("computes the review, then answers the identical request from the cache", async () => {
+    const first = await get(`/api/v1/review?${query}`);
+    expect(first.status).toBe(200);
+    const body = await first.json();
+    expect(body.cached).toBe(false);
+    expect(body.metricFamily).toBe("conversion");
+    expect(body.cautions).toHaveLength(3);
+    expect(body.falseDiscoveryRate).toHaveProperty("interval");
+    const second = await get(`/api/v1/review?${query}`);
+    const again = await second.json();
+    expect(again.cached).toBe(true);
+    expect({ ...again, cached: false }).toEqual(body);
+  }, 120_000);
+
+  it("serves the per-test table as JSON and as escaped CSV, and the HTML report", async () => {
+    const json = await (await get(`/api/v1/review/tests?${query}`)).json();
+    expect(json.count).toBeGreaterThan(0);
+    const csv = await get(`/api/v1/review/tests?${query}&format=csv`);
+    expect(csv.headers.get("content-type")).toMatch(/text\/csv/);
+    expect((await csv.text()).split("\r\n")).toHaveLength(json.count + 2);
+    const html = await get(`/api/v1/review/report?${query}`);
+    expect(html.headers.get("content-type")).toMatch(/text\/html/);
+    expect(await html.text()).toContain("<svg");
+  }, 120_000);
+
+  it("validates the query and names the field", async () => {
+    const response = await get("/api/v1/review?quarter=2026Q3&from=2026-01-01");
+    expect(response.status).toBe(400);
+    expect((await response.json()).error.issues[0].path).toBe("quarter");
+    expect((await get("/api/v1/review?family=nothing")).status).toBe(422);
+  });
+});
+
+describe("saved reviews", () => {
+  it("saves with a write token only, never overwrites, lists, shows and compares", async () => {
+    expect((await post("/api/v1/reviews", { label: "q3" }, tokens.read)).status).toBe(403);
+    const saved = await post("/api/v1/reviews", {
+      label: "q3",
+      settings: { family: "conversion", priorFamily: "skewed" },
+    });
+    expect(saved.status).toBe(201);
+    expect((await post("/api/v1/reviews", { label: "q3", settings: { family: "conversion" } })).status).toBe(
+      409,
+    );
+    expect(
+      (
+        await post("/api/v1/reviews", {
+          label: "q3 strict",
+          settings: { family: "conversion", priorFamily: "skewed", delta: 0.002 },
+        })
+      ).status,
+    ).toBe(201);
+    const list = await (await get("/api/v1/reviews")).json();
+    expect(list.reviews.map((row: { label: string }) => row.label)).toEqual(["q3 strict", "q3"]);
+    const shown = await (await get(`/api/v1/reviews/${encodeURIComponent("q3")}?include=tests`)).json();
+    expect(shown.review.metricFamily).toBe("conversion");
+    expect(shown.tests.length).toBeGreaterThan(0);
+    const compared = await (
+      await get(`/api/v1/reviews/compare?before=q3&after=${encodeURIComponent("q3 strict")}`)
+    ).json();
+    expect(compared.sameData).toBe(true);
+    expect(compared.settingsChanged).toEqual(["delta"]);
+    expect((await get("/api/v1/reviews/none")).status).toBe(404);
+  }, 120_000);
+
+  it("appears in the OpenAPI document", async () => {
+    const document = await (await app.request("/api/openapi.json")).json();
+    for (const path of [
+      "/api/v1/review",
+      "/api/v1/review/tests",
+      "/api/v1/review/report",
+      "/api/v1/reviews",
+      "/api/v1/reviews/{label}",
+      "/api/v1/reviews/compare",
+    ]) {
+      expect(Object.keys(document.paths), path).toContain(path);
+    }
+  });
+});
