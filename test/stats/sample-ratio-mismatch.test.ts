@@ -1,3 +1,4 @@
+import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { StatsInputError } from "../../src/stats/errors.ts";
 import { sampleRatioMismatch } from "../../src/stats/sample-ratio-mismatch.ts";
@@ -48,5 +49,30 @@ describe("sampleRatioMismatch", () => {
     expect(() => sampleRatioMismatch([10, 1.5], [0.5, 0.5])).toThrow(StatsInputError);
     expect(() => sampleRatioMismatch([0, 0], [0.5, 0.5])).toThrow(StatsInputError);
     expect(() => sampleRatioMismatch([10, 12], [0.5, 0])).toThrow(StatsInputError);
+  });
+
+  it("properties: p-value in [0, 1], statistic >= 0, exact split gives p = 1, inputs never mutated", () => {
+    fc.assert(
+      fc.property(
+        fc.array(fc.integer({ min: 0, max: 1_000_000 }), { minLength: 2, maxLength: 6 }),
+        fc.array(fc.double({ min: 0.01, max: 10, noNaN: true }), { minLength: 6, maxLength: 6 }),
+        (counts, shareSeeds) => {
+          fc.pre(counts.some((count) => count > 0));
+          const shares = shareSeeds.slice(0, counts.length);
+          const countsCopy = [...counts];
+          const sharesCopy = [...shares];
+          const result = sampleRatioMismatch(counts, shares);
+          expect(result.statistic).toBeGreaterThanOrEqual(0);
+          expect(result.pValue).toBeGreaterThanOrEqual(0);
+          expect(result.pValue).toBeLessThanOrEqual(1);
+          expect(result.df).toBe(counts.length - 1);
+          expect(counts).toEqual(countsCopy);
+          expect(shares).toEqual(sharesCopy);
+        },
+      ),
+    );
+    const exact = sampleRatioMismatch([500, 250, 250], [2, 1, 1]);
+    expect(exact.statistic).toBe(0);
+    expect(exact.pValue).toBe(1);
   });
 });
