@@ -332,7 +332,10 @@ describe("authorization matrix", () => {
     for (const [path, item] of Object.entries(document.paths))
       for (const [method, operation] of Object.entries(item))
         if (path.startsWith("/api/v1/"))
-          documented.set(`${method.toUpperCase()} ${path}`, operation["x-required-role"]);
+          documented.set(
+            `${method.toUpperCase()} ${path}`,
+            operation["x-required-role"] as string | undefined,
+          );
     const registered = app.routes
       .filter((route) => route.path.startsWith("/api/v1/") && route.method !== "ALL")
       .map((route) => `${route.method} ${route.path.replace(/:([A-Za-z]+)/g, "{$1}")}`);
