@@ -20,6 +20,7 @@
  * Cost: O(R N K) time for R portfolios, N tests and K rules; memory O(R K G) for G groups.
  * The simulation runs in steps (`advance`) so that callers can yield to an event loop.
  */
+import { componentLikelihood } from "./component-likelihood.ts";
 import { normalSurvival } from "./distributions.ts";
 import type { EffectPrior } from "./effect-prior.ts";
 import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
@@ -287,6 +288,10 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
       };
       const expectedShipped = sumOf((expectation) => expectation.probabilityOfShipping);
       const expectedRealWins = sumOf((expectation) => expectation.probabilityOfRealWin);
+      const realizedExpected = sumOf((expectation) => expectation.expectedShippedEffect);
+      const noiseExpected = sumOf((expectation) => expectation.expectedShippedNoise);
+      const claimedExpected =
+        realizedExpected === null || noiseExpected === null ? null : realizedExpected + noiseExpected;
       const claimed = seriesOf(rule, group, claimedSlot);
       const realized = seriesOf(rule, group, realizedSlot);
       const gap = new Float64Array(simulations);
@@ -298,12 +303,15 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
           seriesOf(rule, group, falseWinSlot),
           expectedShipped === null || expectedRealWins === null ? null : expectedShipped - expectedRealWins,
         ),
-        claimedLift: withExpected(claimed, null),
+        claimedLift: withExpected(claimed, claimedExpected),
         realizedLift: withExpected(
           realized,
           sumOf((expectation) => expectation.expectedShippedEffect),
         ),
-        liftGap: withExpected(gap, null),
+        liftGap: withExpected(
+          gap,
+          sumOf((expectation) => expectation.expectedShippedNoise),
+        ),
       };
     };
     const ruleForecasts: RuleForecast[] = rules.map((rule, ruleIndex) => {
@@ -351,15 +359,20 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
         return values;
       };
       const realizedDifference = difference(realizedSlot);
+      const expectedDifference = (quantity: keyof OutcomeSummaries): number | null => {
+        const later = ruleForecasts[ruleIndex]![quantity].expected;
+        const first = ruleForecasts[0]![quantity].expected;
+        return later === null || first === null ? null : later - first;
+      };
       return {
         label: rule.label,
         baseline: rules[0]!.label,
-        shipped: withExpected(difference(shippedSlot), null),
-        realWins: withExpected(difference(realWinSlot), null),
-        falseWins: withExpected(difference(falseWinSlot), null),
-        claimedLift: withExpected(difference(claimedSlot), null),
-        realizedLift: withExpected(realizedDifference, null),
-        liftGap: withExpected(difference("gap"), null),
+        shipped: withExpected(difference(shippedSlot), expectedDifference("shipped")),
+        realWins: withExpected(difference(realWinSlot), expectedDifference("realWins")),
+        falseWins: withExpected(difference(falseWinSlot), expectedDifference("falseWins")),
+        claimedLift: withExpected(difference(claimedSlot), expectedDifference("claimedLift")),
+        realizedLift: withExpected(realizedDifference, expectedDifference("realizedLift")),
+        liftGap: withExpected(difference("gap"), expectedDifference("liftGap")),
         probabilityRealizedAtLeastBaseline: shareAtLeast(realizedDifference, 0),
       };
     });
@@ -401,6 +414,8 @@ interface TestExpectation {
   readonly probabilityOfShipping: number | null;
   readonly probabilityOfRealWin: number | null;
   readonly expectedShippedEffect: number | null;
+  /** E[(y - theta) 1{ship}]: the winner's-curse part of the claimed lift (null without a closed form). */
+  readonly expectedShippedNoise: number | null;
 }
 
 function testExpectation(
@@ -409,8 +424,14 @@ function testExpectation(
   threshold: number,
 ): TestExpectation {
   if (!expectations)
-    return { probabilityOfShipping: null, probabilityOfRealWin: null, expectedShippedEffect: null };
+    return {
+      probabilityOfShipping: null,
+      probabilityOfRealWin: null,
+      expectedShippedEffect: null,
+      expectedShippedNoise: null,
+    };
   return {
+    expectedShippedNoise: expectedShippedNoise(test.prior, test.standardError, threshold),
     probabilityOfShipping: expectations.probabilityOfShipping(test.prior, test.standardError, threshold),
     probabilityOfRealWin: expectations.probabilityOfShippingAbove(
       test.prior,
@@ -420,6 +441,24 @@ function testExpectation(
     ),
     expectedShippedEffect: expectations.expectedShippedEffect(test.prior, test.standardError, threshold),
   };
+}
+
+/**
+ * E[(y - theta) 1{y > t}] = E_theta[s phi((t - theta)/s)] = s^2 f_Y(t), with f_Y the marginal
+ * density of the estimate (the Gaussian integration-by-parts identity behind Tweedie's formula;
+ * Efron 2011, "Tweedie's formula and selection bias", JASA 106:1602). f_Y is the mixture of the
+ * components' marginal likelihoods (component-likelihood.ts); half-t components have no closed
+ * form there, so the expectation is left out (null) for priors that hold one.
+ */
+function expectedShippedNoise(prior: EffectPrior, standardError: number, threshold: number): number | null {
+  let density = 0;
+  for (const { component, weight } of prior.components) {
+    if (weight === 0) continue;
+    const likelihood = componentLikelihood(component, threshold, standardError);
+    if (!Number.isFinite(likelihood)) return null;
+    density += weight * likelihood;
+  }
+  return standardError * standardError * density;
 }
 
 function withExpected(values: Float64Array, expected: number | null): OutcomeSummary {
@@ -442,7 +481,7 @@ function forecastAssumptions(simulations: number, analytic: boolean): string[] {
     `Means carry a Monte Carlo error (sd / sqrt(${simulations})); quantiles are R type 7 over the ${simulations} simulated portfolios.`,
     "Rules are compared on the same draws of true effects and noise (common random numbers).",
     analytic
-      ? "Expected values beside the simulated means are exact sums over the planned tests (shipped, real and false wins, realized lift); claimed lift and the gap have none."
+      ? "Expected values beside the simulated means are exact sums over the planned tests (shipped, real and false wins, realized lift; claimed lift and the gap through E[(y - theta) 1{ship}] = s^2 f(threshold), left out for half-t priors, which have no closed form)."
       : "No analytic expectations were available for this run.",
   ];
 }

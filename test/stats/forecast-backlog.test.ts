@@ -150,6 +150,26 @@ describe("forecastBacklog: simulated means against exact expectations (scipy qua
           rule.realizedLift,
           rule.realizedLift.expected!,
         );
+        // Claimed lift through s^2 f(threshold): closed form for normal and uniform components only.
+        if (priorName === "fat") {
+          expect(rule.claimedLift.expected).toBeNull();
+          expect(rule.liftGap.expected).toBeNull();
+        } else {
+          expectClose(
+            "expected claimedLift",
+            inputs,
+            rule.claimedLift.expected!,
+            total((entry) => entry.expectedShippedEstimate),
+            exactTolerance,
+          );
+          expectClose(
+            "expected liftGap",
+            inputs,
+            rule.liftGap.expected!,
+            total((entry) => entry.expectedShippedEstimate - entry.expectedShippedEffect),
+            exactTolerance,
+          );
+        }
         // Per test: the share of portfolios that shipped it is a binomial proportion.
         for (const [index, test] of rule.tests.entries()) {
           const exact = ruleCases[Math.floor(index / 3)]!.probabilityOfShipping;
@@ -157,6 +177,17 @@ describe("forecastBacklog: simulated means against exact expectations (scipy qua
           expectClose("simulatedShipShare", { test: test.name }, test.simulatedShipShare, exact, {
             absolute: monteCarloMultiple * binomialError,
           });
+        }
+        // The difference between the rules on common draws against the difference of expectations.
+        if (ruleIndex === 1) {
+          const difference = forecast.differences[0]!;
+          for (const quantity of ["shipped", "realWins", "falseWins", "realizedLift"] as const)
+            expectWithinMonteCarlo(
+              `difference in ${quantity}`,
+              inputs,
+              difference[quantity],
+              difference[quantity].expected!,
+            );
         }
         // Team groups partition the portfolio.
         const teamShipped = rule.byTeam.reduce((sum, team) => sum + team.shipped.mean, 0);
