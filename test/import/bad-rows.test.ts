@@ -69,13 +69,30 @@ describe("import: every kind of bad row is reported with row, column and a messa
     );
   });
 
-  it("p-value outside (0, 1), including p = 1", async () => {
+  it("conversions greater than n in the control arm too, and negative conversions", async () => {
+    const errors = await errorsOf([
+      countsRow({ control_conversions: 1001 }),
+      countsRow({ experiment: "exp-3", treatment_conversions: -4 }),
+    ]);
+    expectError(errors, 2, "control_conversions", /1001 conversions exceed control_n 1000/);
+    expectError(errors, 3, "treatment_conversions", /must not be negative; got -4/);
+  });
+
+  it("p-value outside (0, 1): above 1, exactly 1, exactly 0, negative, and 140%", async () => {
     const errors = await errorsOf([
       seRow({ lift_se: "", p_value: 1.3 }),
       seRow({ experiment: "exp-3", lift_se: "", p_value: 1 }),
+      seRow({ experiment: "exp-4", lift_se: "", p_value: 0 }),
+      seRow({ experiment: "exp-5", lift_se: "", p_value: -0.02 }),
+      seRow({ experiment: "exp-6", lift_se: "", p_value: "140%" }),
     ]);
-    expectError(errors, 2, "p_value", /strictly between 0 and 1/);
-    expectError(errors, 3, "p_value", /strictly between 0 and 1/);
+    for (const row of [2, 3, 4, 5, 6]) expectError(errors, row, "p_value", /strictly between 0 and 1/);
+  });
+
+  it("a doubled percent sign or a decimal comma is not a number, and the message shows how to write it", async () => {
+    const errors = await errorsOf([seRow({ lift: "1.2%%" }), seRow({ experiment: "exp-3", lift_se: "0,4" })]);
+    expectError(errors, 2, "lift", /"1\.2%%" is not a number \(write e\.g\. 0\.012, -3\.5, 1e-4 or 1\.2%/);
+    expectError(errors, 3, "lift_se", /"0,4" is not a number/);
   });
 
   it("missing estimate, a lift without uncertainty, and a standard error without its lift", async () => {
@@ -115,10 +132,39 @@ describe("import: every kind of bad row is reported with row, column and a messa
       countsRow({ started_on: "18/03/2024" }),
       countsRow({ experiment: "exp-3", ended_on: "2024-02-30" }),
       countsRow({ experiment: "exp-4", started_on: "2024-03-10", ended_on: "2024-03-01" }),
+      countsRow({ experiment: "exp-5", decided_on: "March 2024" }),
+      countsRow({ experiment: "exp-6", started_on: "2023-02-29" }),
     ]);
     expectError(errors, 2, "started_on", /YYYY-MM-DD/);
     expectError(errors, 3, "ended_on", /not a day of the calendar/);
     expectError(errors, 4, "ended_on", /2024-03-01 is before started_on 2024-03-10/);
+    expectError(errors, 5, "decided_on", /"March 2024" is not a date written YYYY-MM-DD/);
+    // 2023 is not a leap year.
+    expectError(errors, 6, "started_on", /"2023-02-29" is not a day of the calendar/);
+  });
+
+  it("inconsistent columns: means against lift, and p_value against lift_se", async () => {
+    const means = {
+      control_n: 100,
+      treatment_n: 100,
+      control_mean: 10,
+      control_sd: 5,
+      treatment_mean: 11,
+      treatment_sd: 5,
+    };
+    const errors = await errorsOf([
+      seRow({ lift: "25%", lift_se: "", ...means }),
+      // lift 0.01 with p = 0.5 means s = 0.01 / 0.6745 = 0.01483, far from lift_se 0.004.
+      seRow({ experiment: "exp-3", p_value: 0.5 }),
+    ]);
+    // 11 / 10 - 1 = 0.1 (worked by hand).
+    expectError(errors, 2, "lift", /25% disagrees with the lift 0\.1 from the means/);
+    expectError(
+      errors,
+      3,
+      "p_value",
+      /p_value gives a standard error of 0\.01483, which disagrees with 0\.004 from lift_se/,
+    );
   });
 
   it("unknown metric_kind and direction; counts for a continuous metric", async () => {
@@ -140,13 +186,36 @@ describe("import: every kind of bad row is reported with row, column and a messa
     );
   });
 
-  it("duplicate experiment x metric rows, naming both rows", async () => {
+  it("duplicate experiment x metric rows, naming both rows, also when not adjacent", async () => {
     expectError(
       await errorsOf([countsRow(), countsRow({ name: "" })]),
       3,
       "metric",
       /appear twice, on rows 2 and 3/,
     );
+    expectError(
+      await errorsOf([countsRow(), seRow(), countsRow({ experiment: "exp-1", treatment_conversions: 130 })]),
+      4,
+      "metric",
+      /experiment "exp-1" and metric "signup_rate" appear twice, on rows 2 and 4/,
+    );
+  });
+
+  it("duplicate rows in a realized-measurements file, naming both rows", async () => {
+    expect((await context.run(toCsv([countsRow()]))).outcome).toBe("applied");
+    const holdout = {
+      experiment: "exp-1",
+      metric: "signup_rate",
+      realized_lift: 0.01,
+      realized_se: 0.01,
+      method: "holdout",
+    };
+    const report = await context.run(toCsv([holdout, { ...holdout, realized_lift: 0.02 }]), {
+      kind: "realized",
+    });
+    expect(report.outcome).toBe("rejected");
+    expectError(report.errors, 3, "method", /method holdout appear twice, on rows 2 and 3/);
+    expect((await context.snapshot()).realized).toEqual([]);
   });
 
   it("experiment-level columns that disagree across its metric rows, naming both rows", async () => {

@@ -42,6 +42,36 @@ describe("import: all or nothing, idempotent, dry run, limits, JSON", () => {
     expect((await importLog(context.db)).map((entry) => entry.outcome)).toEqual(["rejected"]);
   });
 
+  it("leaves stored data exactly as it was when a file of 1,000 edits has one bad row", async () => {
+    const rows = history(1000);
+    await context.run(toCsv(rows));
+    const before = await context.snapshot();
+    const edited = rows.map((row, index) =>
+      index % 2 === 0 ? { ...row, treatment_conversions: 150, decision: "not_shipped" } : row,
+    );
+    edited.push(countsRow({ experiment: "exp-new", primary: "yes" }));
+    edited[998] = { ...edited[998], decision: "launched" };
+    const report = await context.run(toCsv(edited));
+    expect(report.outcome).toBe("rejected");
+    expect(report.errors.map((error) => [error.row, error.column])).toEqual([[1000, "decision"]]);
+    expect(await context.snapshot()).toEqual(before);
+  });
+
+  it("rolls back every write when the database refuses one insert midway through the transaction", async () => {
+    // A real SQLite trigger makes the 900th result's insert fail after the experiments and the
+    // earlier results were written in the same transaction.
+    await context.client.execute(
+      "CREATE TRIGGER refuse_one BEFORE INSERT ON results WHEN NEW.input LIKE '%\"exp-450\"%' BEGIN SELECT RAISE(ABORT, 'refused by test trigger'); END",
+    );
+    const failure = await context.run(toCsv(history(1000))).then(
+      () => undefined,
+      (error: unknown) => error as Error & { cause?: Error },
+    );
+    expect(failure?.cause?.message ?? failure?.message).toMatch(/refused by test trigger/);
+    expect(await context.snapshot()).toEqual({ metrics: [], experiments: [], results: [], realized: [] });
+    expect(await importLog(context.db)).toEqual([]);
+  });
+
   it("imports 1,000 rows, then the same file again changes nothing", async () => {
     const content = toCsv(history(1000));
     const first = await context.run(content);
@@ -60,6 +90,26 @@ describe("import: all or nothing, idempotent, dry run, limits, JSON", () => {
     expect(log[0]?.contentHash).toMatch(/^[0-9a-f]{64}$/);
     expect(log[1]?.contentHash).toBe(log[0]?.contentHash);
     expect(log[1]?.unchanged).toBe(1000);
+  });
+
+  it("counts a file with its columns in another order as unchanged", async () => {
+    const rows = history(20);
+    await context.run(toCsv(rows));
+    const before = await context.snapshot();
+    const reordered = rows.map((row) => Object.fromEntries(Object.entries(row).reverse()));
+    const report = await context.run(toCsv(reordered));
+    expect([report.created, report.updated, report.unchanged]).toEqual([0, 0, 20]);
+    expect(await context.snapshot()).toEqual(before);
+  });
+
+  it("dry run of an edited file reports the updates and writes none of them", async () => {
+    const rows = history(10);
+    await context.run(toCsv(rows));
+    const before = await context.snapshot();
+    rows[0] = { ...rows[0], treatment_conversions: 131 };
+    const dry = await context.run(toCsv(rows), { dryRun: true });
+    expect([dry.outcome, dry.created, dry.updated, dry.unchanged]).toEqual(["dry_run", 0, 1, 9]);
+    expect(await context.snapshot()).toEqual(before);
   });
 
   it("updates an edited row and the rows of an experiment whose fields changed", async () => {
@@ -191,6 +241,11 @@ describe("import: all or nothing, idempotent, dry run, limits, JSON", () => {
     ]);
     const again = await context.run(realized, { kind: "realized", fileName: "realized.csv" });
     expect([again.created, again.updated, again.unchanged]).toEqual([0, 0, 2]);
+    const edited = await context.run(realized.replace("4%", "3.5%"), { kind: "realized" });
+    expect([edited.created, edited.updated, edited.unchanged]).toEqual([0, 1, 1]);
+    const afterEdit = (await context.snapshot()).realized;
+    expect(afterEdit.map((row) => row.estimate)).toEqual([0.035, 0.02]);
+    expect(afterEdit[0]?.updatedAt).not.toBeNull();
     const bad = await context.run(
       toCsv([
         {
