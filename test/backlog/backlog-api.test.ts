@@ -126,6 +126,10 @@ describe("backlog API", () => {
     expect(report.seed).toBe(5);
     expect(report.rules.map((rule: { label: string }) => rule.label)).toEqual(["current", "alpha=0.2"]);
     expect(report.priors[0]).toMatchObject({ family: "conversion", source: "assumed" });
+    const page = await call("POST", "/forecast", { sims: 200, fallbackPrior, format: "html" }, readToken);
+    expect(page.status).toBe(200);
+    expect(page.headers.get("content-type")).toMatch(/text\/html/);
+    expect(await page.text()).toContain("<svg");
 
     const order: string[] = [];
     const long = call("POST", "/forecast", { sims: 400_000, seed: 6, fallbackPrior }, readToken).then(
