@@ -5,6 +5,9 @@
  * A second identical request on unchanged data is served from the cache (`cached: true`).
  */
 import type { Database } from "../db/client.ts";
+import { bootstrapPrior } from "../stats/bootstrap-prior.ts";
+import type { EffectPrior } from "../stats/effect-prior.ts";
+import { StatsInputError } from "../stats/errors.ts";
 import { type FitFamily, fitEffectPrior } from "../stats/fit-effect-prior.ts";
 import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
 import { createRandom } from "../stats/random.ts";
@@ -33,9 +36,13 @@ export interface ReviewRequest {
   readonly nullWeight?: number;
   /** Prior family (default "auto": the better of symmetric and skewed by likelihood). */
   readonly priorFamily?: FitFamily | "auto";
+  /** Bootstrap refits of the prior behind the intervals of program figures (default 100; 0 = none). */
+  readonly bootstrap?: number;
   /** Seed of every random draw of the review (default 1). */
   readonly seed?: number;
 }
+
+export const defaultBootstrapRefits = 100;
 
 /** The settings a review ran with, resolved (stored with every saved review). */
 export interface ReviewSettings {
@@ -46,6 +53,7 @@ export interface ReviewSettings {
   readonly caliperWidth: number;
   readonly nullWeight: number | null;
   readonly priorFamily: FitFamily | "auto";
+  readonly bootstrap: number;
   readonly seed: number;
 }
 
@@ -68,6 +76,10 @@ export interface ReviewOutcome {
 }
 
 export function resolveReviewSettings(request: ReviewRequest): ReviewSettings {
+  const bootstrap = request.bootstrap ?? defaultBootstrapRefits;
+  if (!Number.isInteger(bootstrap) || bootstrap < 0 || bootstrap > 2000) {
+    throw new StatsInputError("bootstrap", "an integer from 0 to 2000", bootstrap);
+  }
   return {
     filters: resolveFilters(request.filters ?? {}),
     delta: request.delta ?? 0,
@@ -76,6 +88,7 @@ export function resolveReviewSettings(request: ReviewRequest): ReviewSettings {
     caliperWidth: request.caliperWidth ?? 0.1,
     nullWeight: request.nullWeight ?? null,
     priorFamily: request.priorFamily ?? "auto",
+    bootstrap,
     seed: request.seed ?? 1,
   };
 }
@@ -120,11 +133,24 @@ export async function runReview(
     (["symmetric", "skewed", "grid"] as const)
       .filter((family) => family !== fit.family)
       .map((family) => fitEffectPrior(observations, { ...fitOptions, family }));
+  let bootstrapPriors: readonly EffectPrior[] = [];
+  if (settings.bootstrap > 0) {
+    progress(`refitting the prior to ${settings.bootstrap} bootstrap resamples`);
+    bootstrapPriors = bootstrapPrior(observations, fit, {
+      replicates: settings.bootstrap,
+      // Its own stream, so that the bootstrap and Lee & Shen's draws do not depend on each other.
+      seed: settings.seed + 7919,
+      onProgress: (done, total) => {
+        if (done % 10 === 0 || done === total) progress(`bootstrap refit ${done} of ${total}`);
+      },
+    }).priors;
+  }
   progress("computing the review");
   const review = programReview({
     tests: data.reviewedTests,
     fit,
     alternativeFits: alternatives,
+    bootstrapPriors,
     random: createRandom(settings.seed),
     settings: {
       delta: settings.delta,

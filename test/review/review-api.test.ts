@@ -45,7 +45,8 @@ describe("GET /api/v1/review", () => {
     expect(body.cached).toBe(false);
     expect(body.metricFamily).toBe("conversion");
     expect(body.cautions).toHaveLength(3);
-    expect(body.falseDiscoveryRate).toHaveProperty("interval");
+    expect(body.falseDiscoveryRate.interval.lower).toBeLessThanOrEqual(body.falseDiscoveryRate.estimate);
+    expect(body.falseDiscoveryRate.interval.upper).toBeGreaterThanOrEqual(body.falseDiscoveryRate.estimate);
     const second = await get(`/api/v1/review?${query}`);
     const again = await second.json();
     expect(again.cached).toBe(true);

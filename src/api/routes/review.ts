@@ -60,6 +60,13 @@ const reviewQueryShape = {
     .optional()
     .openapi({ description: "Two-sided level of the launch rule (default 0.05)" }),
   priorFamily: z.enum(["auto", "symmetric", "skewed", "grid"]).optional(),
+  bootstrap: z.coerce
+    .number()
+    .int()
+    .min(0)
+    .max(2000)
+    .optional()
+    .openapi({ description: "Bootstrap refits of the prior behind the intervals (default 100; 0 = none)" }),
   seed: z.coerce.number().int().optional(),
 };
 
@@ -207,6 +214,7 @@ function toRequest(query: ReviewQuery): ReviewRequest {
     ...(query.alpha !== undefined ? { alpha: query.alpha } : {}),
     ...(query.priorFamily ? { priorFamily: query.priorFamily } : {}),
     ...(query.seed !== undefined ? { seed: query.seed } : {}),
+    ...(query.bootstrap !== undefined ? { bootstrap: query.bootstrap } : {}),
   };
 }
 

@@ -22,7 +22,7 @@ export const summary = "review the program: real and false wins, realized lift, 
 const help = `Usage:
   plumbline review --workspace NAME [--family F] [--team T] [--from YYYY-MM-DD --to YYYY-MM-DD]
                    [--quarter 2026Q3] [--delta X] [--practical X] [--alpha A]
-                   [--prior-family auto|symmetric|skewed|grid] [--seed N]
+                   [--prior-family auto|symmetric|skewed|grid] [--bootstrap B] [--seed N]
                    [--json] [--html OUT.html] [--csv OUT.csv] [--save LABEL]
 
 Reviews one metric family (default: the family with the most primary results): of the wins
@@ -33,6 +33,8 @@ is fitted to the whole family; --team, --from/--to and --quarter choose the test
   --delta X          a false win has true effect <= X (default 0)
   --practical X      also report false wins at this practical threshold (e.g. 0.005)
   --alpha A          two-sided level of the launch rule, shipped on the upper tail (default 0.05)
+  --bootstrap B      refits of the prior behind the intervals (default 100; 0 = no intervals)
+  --seed N           seed of the bootstrap and of Lee & Shen's interval (default 1)
   --html OUT.html    write the self-contained report (charts inline, no network needed)
   --csv OUT.csv      write the per-test table
   --save LABEL       keep this review as an immutable snapshot (see plumbline reviews)
@@ -50,6 +52,7 @@ interface Options {
   alpha?: string;
   "prior-family"?: string;
   seed?: string;
+  bootstrap?: string;
   json?: boolean;
   html?: string;
   csv?: string;
@@ -85,6 +88,7 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
         alpha: { type: "string" },
         "prior-family": { type: "string" },
         seed: { type: "string" },
+        bootstrap: { type: "string" },
         json: { type: "boolean" },
         html: { type: "string" },
         csv: { type: "string" },
@@ -131,6 +135,9 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
       ...(values.alpha !== undefined ? { alpha: parseNumber("alpha", values.alpha) as number } : {}),
       priorFamily: priorFamily as FitFamily | "auto",
       ...(seed !== undefined ? { seed } : {}),
+      ...(values.bootstrap !== undefined
+        ? { bootstrap: parseNumber("bootstrap", values.bootstrap) as number }
+        : {}),
     };
   } catch (error) {
     io.err(`plumbline review: ${(error as Error).message}`);
