@@ -6,7 +6,7 @@ import type { Context, MiddlewareHandler } from "hono";
 import type { Database } from "../db/client.ts";
 import type { AppEnv, AuthContext, TokenRole } from "./context.ts";
 import { ApiError } from "./errors.ts";
-import { resolveToken, touchToken } from "./tokens.ts";
+import { lastUsedIsStale, resolveToken, touchToken } from "./tokens.ts";
 
 const roleRank: Record<TokenRole, number> = { read: 0, write: 1, admin: 2 };
 
@@ -67,8 +67,14 @@ export function authenticate(db: Database): MiddlewareHandler<AppEnv> {
       );
     const resolved = await resolveToken(db, match[1]);
     if (!resolved) throw new ApiError(401, "unauthorized", "unknown or revoked token");
-    c.set("auth", resolved);
-    await touchToken(db, resolved.tokenId);
+    const { lastUsedAt, ...auth } = resolved;
+    c.set("auth", auth);
+    const now = new Date();
+    if (lastUsedIsStale(lastUsedAt, now)) {
+      // Bookkeeping must not fail a read: if the database is busy (e.g. a long import holds the
+      // write lock), the last-used time is simply recorded on a later request.
+      await touchToken(db, resolved.tokenId, now).catch(() => undefined);
+    }
     await next();
   };
 }

@@ -36,6 +36,7 @@ export interface IssuedToken {
 
 export interface ResolvedToken {
   readonly tokenId: number;
+  readonly lastUsedAt: string | null;
   readonly role: TokenRole;
   readonly workspaceId: number;
   readonly workspaceName: string;
@@ -84,6 +85,7 @@ export async function resolveToken(db: Database, token: string): Promise<Resolve
       tokenId: apiTokens.id,
       role: apiTokens.role,
       revokedAt: apiTokens.revokedAt,
+      lastUsedAt: apiTokens.lastUsedAt,
       workspaceId: workspaces.id,
       workspaceName: workspaces.name,
     })
@@ -94,13 +96,24 @@ export async function resolveToken(db: Database, token: string): Promise<Resolve
   if (!row || row.revokedAt !== null) return undefined;
   return {
     tokenId: row.tokenId,
+    lastUsedAt: row.lastUsedAt,
     role: row.role,
     workspaceId: row.workspaceId,
     workspaceName: row.workspaceName,
   };
 }
 
-/** Records that a token was just used. */
+/** How stale the last-used time may get: a write on every request would compete with imports. */
+export const lastUsedResolutionMs = 60_000;
+
+/** Whether the last-used time is older than its resolution (or unset) at `now`. */
+export function lastUsedIsStale(lastUsedAt: string | null, now: Date): boolean {
+  if (lastUsedAt === null) return true;
+  const last = Date.parse(lastUsedAt);
+  return !Number.isFinite(last) || now.getTime() - last >= lastUsedResolutionMs;
+}
+
+/** Records that a token was just used (to the minute: see lastUsedResolutionMs). */
 export async function touchToken(db: Database, tokenId: number, now: Date = new Date()): Promise<void> {
   await db.update(apiTokens).set({ lastUsedAt: now.toISOString() }).where(eq(apiTokens.id, tokenId));
 }

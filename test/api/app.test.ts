@@ -6,7 +6,7 @@ import { createHash } from "node:crypto";
 import { eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { createApp } from "../../src/api/app.ts";
-import { isWellFormedToken } from "../../src/api/tokens.ts";
+import { isWellFormedToken, lastUsedIsStale, lastUsedResolutionMs } from "../../src/api/tokens.ts";
 import { apiTokens } from "../../src/db/schema.ts";
 import { StatsInputError } from "../../src/stats/errors.ts";
 import { createTestDb } from "../helpers/db.ts";
@@ -183,14 +183,25 @@ describe("tokens", () => {
     expect(listing).not.toContain(row?.tokenHash);
   });
 
-  it("record when they were last used", async () => {
-    const [before] = await handle.db.select().from(apiTokens).where(eq(apiTokens.id, alpha.tokenIds.read));
+  it("record when they were last used, to the minute", async () => {
+    const created = (await (await postJson("/api/v1/tokens", { role: "read" })).json()) as {
+      token: string;
+      summary: { id: number; lastUsedAt: string | null };
+    };
+    expect(created.summary.lastUsedAt).toBeNull();
+    const lastUsed = async () =>
+      (await handle.db.select().from(apiTokens).where(eq(apiTokens.id, created.summary.id)))[0]?.lastUsedAt ??
+      null;
     const started = new Date().toISOString();
-    expect((await get("/api/v1/workspace")).status).toBe(200);
-    const [after] = await handle.db.select().from(apiTokens).where(eq(apiTokens.id, alpha.tokenIds.read));
-    expect(after?.lastUsedAt).not.toBeNull();
-    expect((after?.lastUsedAt ?? "") >= started).toBe(true);
-    expect(after?.lastUsedAt).not.toBe(before?.lastUsedAt);
+    expect((await get("/api/v1/workspace", created.token)).status).toBe(200);
+    const first = await lastUsed();
+    expect(first).not.toBeNull();
+    expect((first ?? "") >= started).toBe(true);
+    // A second use within the minute does not write again (no write per request).
+    expect((await get("/api/v1/workspace", created.token)).status).toBe(200);
+    expect(await lastUsed()).toBe(first);
+    expect(lastUsedIsStale(first, new Date(Date.parse(first ?? "") + lastUsedResolutionMs))).toBe(true);
+    expect(lastUsedIsStale(first, new Date(Date.parse(first ?? "") + lastUsedResolutionMs - 1))).toBe(false);
   });
 
   it("stop working once revoked", async () => {
