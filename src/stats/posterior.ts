@@ -401,6 +401,16 @@ function truncatedMoments(m: number, sc: number, l: number, u: number, logMass: 
   const beta = (u - m) / sc;
   const ratioLower = Number.isFinite(alpha) ? Math.exp(normalLogPdf(alpha) - logMass) : 0;
   const ratioUpper = Number.isFinite(beta) ? Math.exp(normalLogPdf(beta) - logMass) : 0;
+  // Far in a tail with the other bound irrelevant, 1 + alpha r - r^2 cancels catastrophically;
+  // the one-sided moments then come from the Mills-ratio continued fraction instead.
+  if (alpha >= oneSidedTailStart && ratioUpper * Math.max(1, Math.abs(beta)) < 1e-17 * ratioLower) {
+    const [delta, spread] = oneSidedTail(alpha);
+    return [Math.min(u, l + sc * delta), sc * sc * spread];
+  }
+  if (beta <= -oneSidedTailStart && ratioLower * Math.max(1, Math.abs(alpha)) < 1e-17 * ratioUpper) {
+    const [delta, spread] = oneSidedTail(-beta);
+    return [Math.max(l, u - sc * delta), sc * sc * spread];
+  }
   const shift = ratioLower - ratioUpper;
   const mean = Math.min(u, Math.max(l, m + sc * shift));
   const spread =
@@ -409,15 +419,26 @@ function truncatedMoments(m: number, sc: number, l: number, u: number, logMass: 
     (Number.isFinite(beta) ? beta * ratioUpper : 0) -
     shift * shift;
   let variance = sc * sc * spread;
-  // Deep in a tail the formula cancels; the truncated normal there is nearly exponential with
-  // rate |alpha|/sc (or |beta|/sc), whose variance is (sc/|alpha|)^2, and never wider than the box.
-  if (!(variance > 0) || spread < 1e-8) {
-    const distance = alpha > 0 ? alpha : beta < 0 ? -beta : 1;
-    variance = (sc / distance) ** 2;
+  if (!(variance > 0)) {
     const width = u - l;
-    if (Number.isFinite(width)) variance = Math.min(variance, (width * width) / 12);
+    variance = Number.isFinite(width) ? (width * width) / 12 : 0;
   }
   return [mean, variance];
+}
+
+const oneSidedTailStart = 8;
+
+/**
+ * For Z ~ N(0, 1) conditioned on Z > a (a >= 8): [E[Z] - a, Var(Z)]. With the inverse Mills ratio
+ * r = phi(a)/Q(a) = a + delta, delta = 1/(a + e), e = 2/(a + 3/(a + 4/(a + ...))) (Abramowitz &
+ * Stegun 26.2.14), E[Z] = a + delta and Var(Z) = 1 + a r - r^2 = delta (e - delta), free of cancellation.
+ */
+function oneSidedTail(a: number): [number, number] {
+  let fraction = a;
+  for (let term = 60; term >= 3; term--) fraction = a + term / fraction;
+  const e = 2 / fraction;
+  const delta = 1 / (a + e);
+  return [delta, delta * (e - delta)];
 }
 
 /** P(component > t). */

@@ -53,7 +53,13 @@ describe("fitEffectPrior against R mixsqp", () => {
       const scale = component.kind === "normal" ? component.scale : 0;
       if (scale < fixture.minSe) nearNull += fit.componentWeights[k] as number;
     });
-    expectClose("weight of components with scale < min(s)", inputs, nearNull, fixture.weightBelowMinSe, nearNullTolerance);
+    expectClose(
+      "weight of components with scale < min(s)",
+      inputs,
+      nearNull,
+      fixture.weightBelowMinSe,
+      nearNullTolerance,
+    );
   });
 
   it("reports weights on the simplex", () => {

@@ -47,9 +47,15 @@ describe("Efron & Morris (1975) batting averages", () => {
 
   it("reproduces the published ~3.5x smaller squared error of James-Stein", () => {
     // Published: total squared error 0.077 raw vs 0.022 James-Stein, "3.5 times" (rounded to 1 decimal).
-    expectClose("squared-error ratio raw / James-Stein", inputs, rawError / sumOfSquares(jamesStein, truth), 3.5, {
-      absolute: 0.05,
-    });
+    expectClose(
+      "squared-error ratio raw / James-Stein",
+      inputs,
+      rawError / sumOfSquares(jamesStein, truth),
+      3.5,
+      {
+        absolute: 0.05,
+      },
+    );
   });
 
   it("plumbline's empirical-Bayes estimates also beat the raw averages", () => {
@@ -57,7 +63,9 @@ describe("Efron & Morris (1975) batting averages", () => {
     const observations = averages.map((value) => ({ y: value - grandMean, s: Math.sqrt(samplingVariance) }));
     for (const family of ["symmetric", "skewed", "grid"] as const) {
       const fit = fitEffectPrior(observations, { family, nullWeight: 1 });
-      const shrunk = observations.map((observation) => grandMean + posteriorOf(fit.prior, observation.y, observation.s).mean);
+      const shrunk = observations.map(
+        (observation) => grandMean + posteriorOf(fit.prior, observation.y, observation.s).mean,
+      );
       const shrunkError = sumOfSquares(shrunk, truth);
       expect(shrunkError, `${family}: shrunk ${shrunkError} vs raw ${rawError}`).toBeLessThan(rawError / 2);
     }
@@ -94,7 +102,10 @@ describe("The eight schools (Rubin 1981; BDA3 section 5.5)", () => {
 
   it("plumbline's marginal likelihood has the curvature of SE 4.07 at the pooled estimate", () => {
     const logLikAt = (location: number) =>
-      observations.reduce((sum, { y, s }) => sum + componentLogLikelihood({ kind: "point", at: location }, y, s), 0);
+      observations.reduce(
+        (sum, { y, s }) => sum + componentLogLikelihood({ kind: "point", at: location }, y, s),
+        0,
+      );
     const step = 1e-3;
     const center = fixture.remlEstimate;
     const curvature = -(logLikAt(center + step) - 2 * logLikAt(center) + logLikAt(center - step)) / step ** 2;
