@@ -135,6 +135,16 @@ describe("plumbline forecast --plan", () => {
     expect(again.json()).toEqual(report);
   });
 
+  it("shows progress on stderr while it simulates", async () => {
+    const progress: string[] = [];
+    const io = { ...memoryIo(), progress: (text: string) => progress.push(text) };
+    const code = await main(["forecast", "--plan", plan(), ...prior, "--sims", "200000", "--json"], io);
+    expect(code).toBe(0);
+    expect(progress.length).toBeGreaterThan(1);
+    expect(progress.at(-1)).toMatch(/200000 of 200000 simulations \(100 %\)/);
+    expect(io.stdout).toHaveLength(1);
+  });
+
   it("compares two rules on the same draws", async () => {
     const result = await cli([
       "forecast",
