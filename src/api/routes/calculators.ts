@@ -15,6 +15,7 @@ import { defaultAlpha, designAnalysis, designAtPower } from "../../stats/design-
 import { designErrorRates } from "../../stats/error-rates.ts";
 import { StatsInputError } from "../../stats/errors.ts";
 import { type SizeRequest, sizeCalculator, sizeDocument } from "../../stats/size-calculator.ts";
+import { requiredRole } from "../auth.ts";
 import { errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 
@@ -194,6 +195,7 @@ export function calculatorsRoutes(_deps: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "post",
         path: "/calculators/risk",
         tags: ["calculators"],
@@ -220,6 +222,7 @@ export function calculatorsRoutes(_deps: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "post",
         path: "/calculators/design",
         tags: ["calculators"],
@@ -285,6 +288,7 @@ export function calculatorsRoutes(_deps: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "post",
         path: "/calculators/size",
         tags: ["calculators"],

@@ -10,6 +10,7 @@ import { CalibrationSetupError, calibrateWorkspace } from "../../calibrate-works
 import { createRandom } from "../../stats/random.ts";
 import { simulateSkewedMetric } from "../../stats/skewed-metric-simulation.ts";
 import { planTestAndRoll } from "../../stats/test-and-roll.ts";
+import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
@@ -230,6 +231,7 @@ export function calibrateRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "post",
         path: "/calibrate",
         tags: ["calibrate"],
@@ -263,6 +265,7 @@ export function calibrateRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "post",
         path: "/calibrate/test-and-roll",
         tags: ["calibrate"],
@@ -304,6 +307,7 @@ export function calibrateRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "post",
         path: "/calibrate/skew-check",
         tags: ["calibrate"],
