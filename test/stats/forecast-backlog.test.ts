@@ -1,6 +1,7 @@
 /**
  * Backlog forecast (statistics.md section 8) against references outside the simulation:
- * - scipy quad integrals of the shipping expectations (test/fixtures/forecast/generate.py);
+ * - scipy quad integrals of the shipping expectations (test/fixtures/forecast/generate.py) for a
+ *   symmetric normal mixture, a skewed uniform mixture, half-normal and fat-tailed half-t priors;
  * - a single test with a two-point prior, worked by hand with the normal cdf.
  * Monte Carlo tolerance: a simulated mean may differ from its exact expectation by at most
  * 4 of the simulation's own standard errors (sd / sqrt(R)); a correct simulation fails one such
@@ -47,7 +48,7 @@ function expectWithinMonteCarlo(quantity: string, inputs: unknown, summary: Outc
 }
 
 describe("forecastBacklog: simulated means against exact expectations (scipy quad fixture)", () => {
-  for (const priorName of ["normal", "skewed", "fat"]) {
+  for (const priorName of ["normal", "skewed", "halfNormal", "fat"]) {
     it(`agrees within ${monteCarloMultiple} Monte Carlo standard errors for the ${priorName} prior`, () => {
       const prior = fixture.priors[priorName]!;
       const cases = fixture.cases.filter((entry) => entry.prior === priorName);
