@@ -15,6 +15,7 @@ import { requestId } from "hono/request-id";
 import type { ContentfulStatusCode } from "hono/utils/http-status";
 import { importLimits } from "../import/import-file.ts";
 import { StatsInputError } from "../stats/errors.ts";
+import { webPages } from "../web/web-pages.ts";
 import { authenticate } from "./auth.ts";
 import type { AppDeps, AppEnv } from "./context.ts";
 import { ApiError, type ErrorCode, type ErrorIssue, errorBody } from "./errors.ts";
@@ -151,6 +152,7 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
 
   app.get("/api/reference", (c) => c.html(renderReferencePage(openApiDocument(app))));
   app.get("/", (c) => c.html(renderLandingPage()));
+  app.route("/", webPages(deps));
 
   return app;
 }
