@@ -348,16 +348,20 @@ describe("authorization matrix", () => {
   });
 
   it("every documented route answers by its declared role: 403 below it, never 401/403 at or above it", async () => {
-    // Derived from the document, so the routes of every module that declare their role (with
-    // requiredRole from src/api/auth.ts) are covered as soon as they are added.
+    // Derived from the document, so every route of every module is covered as soon as it is
+    // added; a route that does not declare its role (requiredRole from src/api/auth.ts) fails.
     // Path parameters name nothing that exists (999999), so no cell changes a stored record.
     const document = await openApiDocument();
+    const undeclared: string[] = [];
     for (const [template, item] of Object.entries(document.paths)) {
       if (!template.startsWith("/api/v1/")) continue;
       const path = template.replace(/\{[^}]+\}/g, "999999");
       for (const [method, operation] of Object.entries(item)) {
         const needs = operation["x-required-role"] as TokenRole | undefined;
-        if (!needs) continue;
+        if (!needs) {
+          undeclared.push(`${method.toUpperCase()} ${template}`);
+          continue;
+        }
         for (const credential of ["read", "write", "admin"] as const) {
           const response = await app.request(path, {
             method: method.toUpperCase(),
@@ -373,6 +377,7 @@ describe("authorization matrix", () => {
         }
       }
     }
+    expect(undeclared, "routes that do not declare their role with requiredRole").toEqual([]);
   });
 
   it("every documented route refuses an unusable token, whatever its parameters", async () => {

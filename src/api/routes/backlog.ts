@@ -15,7 +15,7 @@ import {
   listPlannedTests,
   savePlannedTest,
 } from "../../backlog/planned-tests.ts";
-import { requireRole } from "../auth.ts";
+import { requiredRole, requireRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
@@ -184,6 +184,7 @@ export function backlogRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/backlog",
         tags: ["backlog"],
@@ -211,6 +212,7 @@ export function backlogRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("read"),
         method: "get",
         path: "/backlog/{key}",
         tags: ["backlog"],
@@ -228,6 +230,7 @@ export function backlogRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("write"),
         method: "post",
         path: "/backlog",
         tags: ["backlog"],
@@ -248,6 +251,7 @@ export function backlogRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("write"),
         method: "put",
         path: "/backlog/{key}",
         tags: ["backlog"],
@@ -273,6 +277,7 @@ export function backlogRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("write"),
         method: "patch",
         path: "/backlog/{key}",
         tags: ["backlog"],
@@ -299,6 +304,7 @@ export function backlogRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("write"),
         method: "delete",
         path: "/backlog/{key}",
         tags: ["backlog"],
@@ -322,6 +328,7 @@ export function backlogRoutes({ db }: AppDeps): ApiRouter {
     )
     .openapi(
       createRoute({
+        ...requiredRole("write"),
         method: "post",
         path: "/backlog/imports",
         tags: ["backlog"],

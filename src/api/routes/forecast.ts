@@ -11,6 +11,7 @@ import { parseRuleSpec, type RuleSpec } from "../../backlog/forecast-rules.ts";
 import { runForecastInSteps } from "../../backlog/run-forecast-in-steps.ts";
 import { ForecastSetupError, prepareWorkspaceForecast } from "../../backlog/workspace-forecast.ts";
 import { defaultForecastSimulations } from "../../stats/forecast-backlog.ts";
+import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
@@ -102,6 +103,7 @@ const ForecastReportSchema = z
 export function forecastRoutes({ db }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>().openapi(
     createRoute({
+      ...requiredRole("read"),
       method: "post",
       path: "/forecast",
       tags: ["forecast"],
