@@ -5,9 +5,14 @@
 import { and, eq, inArray } from "drizzle-orm";
 import { experiments, metrics, realizedMeasurements } from "../db/schema.ts";
 import type { RealizedPlan } from "./realized-plan.ts";
-import { chunks, type Executor, type WriteCounts } from "./store-results.ts";
+import type { WriteCounts } from "./store-results.ts";
+import { type Executor, upsertRows } from "./upsert-rows.ts";
+
+/** Up to this many keys are looked up by key; above it, the whole workspace is read in one query. */
+const keyedReadLimit = 500;
 
 export interface RealizedLookup {
+  readonly workspaceId: number;
   readonly experimentIds: ReadonlyMap<string, number>;
   readonly metricIds: ReadonlyMap<string, number>;
 }
@@ -19,27 +24,31 @@ export async function lookupKeys(
   experimentKeys: readonly string[],
   metricKeys: readonly string[],
 ): Promise<RealizedLookup & { metricDirections: Map<string, "increase" | "decrease"> }> {
+  const experimentKeySet = [...new Set(experimentKeys)];
   const experimentIds = new Map<string, number>();
-  for (const keys of chunks([...new Set(experimentKeys)], 400)) {
-    const rows = await executor
-      .select({ id: experiments.id, key: experiments.key })
-      .from(experiments)
-      .where(and(eq(experiments.workspaceId, workspaceId), inArray(experiments.key, keys)));
-    for (const row of rows) experimentIds.set(row.key, row.id);
-  }
+  const experimentRows = await executor
+    .select({ id: experiments.id, key: experiments.key })
+    .from(experiments)
+    .where(
+      experimentKeySet.length <= keyedReadLimit
+        ? and(eq(experiments.workspaceId, workspaceId), inArray(experiments.key, experimentKeySet))
+        : eq(experiments.workspaceId, workspaceId),
+    );
+  for (const row of experimentRows) experimentIds.set(row.key, row.id);
+  // A workspace has few metrics: read them all.
   const metricIds = new Map<string, number>();
   const metricDirections = new Map<string, "increase" | "decrease">();
-  for (const keys of chunks([...new Set(metricKeys)], 400)) {
-    const rows = await executor
-      .select({ id: metrics.id, key: metrics.key, direction: metrics.direction })
-      .from(metrics)
-      .where(and(eq(metrics.workspaceId, workspaceId), inArray(metrics.key, keys)));
-    for (const row of rows) {
-      metricIds.set(row.key, row.id);
-      metricDirections.set(row.key, row.direction);
-    }
+  const wanted = new Set(metricKeys);
+  const metricRows = await executor
+    .select({ id: metrics.id, key: metrics.key, direction: metrics.direction })
+    .from(metrics)
+    .where(eq(metrics.workspaceId, workspaceId));
+  for (const row of metricRows) {
+    if (!wanted.has(row.key)) continue;
+    metricIds.set(row.key, row.id);
+    metricDirections.set(row.key, row.direction);
   }
-  return { experimentIds, metricIds, metricDirections };
+  return { workspaceId, experimentIds, metricIds, metricDirections };
 }
 
 export async function storeRealized(
@@ -48,20 +57,27 @@ export async function storeRealized(
   plan: RealizedPlan,
   options: { write: boolean; now: string },
 ): Promise<WriteCounts> {
-  const stored: (typeof realizedMeasurements.$inferSelect)[] = [];
-  for (const ids of chunks([...new Set(lookup.experimentIds.values())], 400)) {
-    stored.push(
-      ...(await executor
-        .select()
-        .from(realizedMeasurements)
-        .where(inArray(realizedMeasurements.experimentId, ids))),
-    );
-  }
+  const experimentIdList = [...new Set(lookup.experimentIds.values())];
+  const stored =
+    experimentIdList.length === 0
+      ? []
+      : experimentIdList.length <= keyedReadLimit
+        ? await executor
+            .select()
+            .from(realizedMeasurements)
+            .where(inArray(realizedMeasurements.experimentId, experimentIdList))
+        : (
+            await executor
+              .select({ measurement: realizedMeasurements })
+              .from(realizedMeasurements)
+              .innerJoin(experiments, eq(realizedMeasurements.experimentId, experiments.id))
+              .where(eq(experiments.workspaceId, lookup.workspaceId))
+          ).map((row) => row.measurement);
   const byIdentity = new Map(stored.map((row) => [`${row.experimentId}:${row.metricId}:${row.method}`, row]));
   let created = 0;
   let updated = 0;
   let unchanged = 0;
-  const inserts: (typeof realizedMeasurements.$inferInsert)[] = [];
+  const writes: (typeof realizedMeasurements.$inferInsert)[] = [];
   for (const planned of plan.measurements) {
     const experimentId = lookup.experimentIds.get(planned.experimentKey);
     const metricId = lookup.metricIds.get(planned.metricKey);
@@ -78,7 +94,7 @@ export async function storeRealized(
     const existing = byIdentity.get(`${experimentId}:${metricId}:${planned.method}`);
     if (!existing) {
       created += 1;
-      inserts.push(values);
+      writes.push(values);
       continue;
     }
     const same =
@@ -91,15 +107,14 @@ export async function storeRealized(
       continue;
     }
     updated += 1;
-    if (options.write) {
-      await executor
-        .update(realizedMeasurements)
-        .set({ ...values, updatedAt: options.now })
-        .where(eq(realizedMeasurements.id, existing.id));
-    }
+    writes.push(values);
   }
   if (options.write) {
-    for (const chunk of chunks(inserts, 400)) await executor.insert(realizedMeasurements).values(chunk);
+    await upsertRows(executor, realizedMeasurements, writes, {
+      conflict: ["experimentId", "metricId", "method"],
+      update: ["estimate", "standardError", "measuredOn", "input"],
+      updatedAt: options.now,
+    });
   }
   return { created, updated, unchanged };
 }

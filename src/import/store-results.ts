@@ -4,12 +4,12 @@
  * experiment x metric. Counts each result as created, updated (its input, derived values, primary
  * mark, experiment or metric changed) or unchanged. Call it inside a transaction to write.
  */
-import { and, eq, inArray } from "drizzle-orm";
-import type { Database } from "../db/client.ts";
+import { and, eq, inArray, sql } from "drizzle-orm";
 import { experiments, metrics, results } from "../db/schema.ts";
 import type { ExperimentFields, PlannedResult, ResultsPlan } from "./results-plan.ts";
+import { chunks, type Executor, upsertRows } from "./upsert-rows.ts";
 
-export type Executor = Pick<Database, "select" | "insert" | "update">;
+export { chunks, type Executor } from "./upsert-rows.ts";
 
 export interface WriteCounts {
   readonly created: number;
@@ -17,11 +17,19 @@ export interface WriteCounts {
   readonly unchanged: number;
 }
 
-type ResultRow = typeof results.$inferSelect;
 type ExperimentRow = typeof experiments.$inferSelect;
+type StoredExperiment = Pick<ExperimentRow, "id" | "key" | "name"> & Partial<ExperimentRow>;
 
-/** Rows a single multi-row insert carries; keeps the statement well under SQLite's variable limit. */
-const insertChunkSize = 400;
+/** The stored result fields an import compares; `input` is its stored JSON text. */
+interface StoredResult extends Omit<typeof results.$inferSelect, "input" | "createdAt" | "updatedAt"> {
+  readonly inputText: string;
+}
+
+/**
+ * Up to this many experiments a file's stored rows are read by key; above it, the whole
+ * workspace is read in one query (cheaper than many keyed queries, and bounded by the workspace).
+ */
+const keyedReadLimit = 500;
 
 export async function storeResults(
   executor: Executor,
@@ -61,59 +69,68 @@ export async function storeResults(
     }
   }
 
-  const experimentKeys = plan.experiments.map((experiment) => experiment.key);
-  const storedExperiments: ExperimentRow[] = [];
-  for (const keys of chunks(experimentKeys, insertChunkSize)) {
-    storedExperiments.push(
-      ...(await executor
-        .select()
-        .from(experiments)
-        .where(and(eq(experiments.workspaceId, workspaceId), inArray(experiments.key, keys)))),
+  const keyed = plan.experiments.length <= keyedReadLimit;
+  // Only the columns the file names are compared, so only those are read (reading is most of a
+  // re-import's time: the driver builds every cell of every row).
+  const givenFields = [
+    ...new Set(plan.experiments.flatMap((experiment) => Object.keys(experiment.fields))),
+  ] as (keyof ExperimentFields)[];
+  const storedExperiments: StoredExperiment[] = await executor
+    .select({
+      ...Object.fromEntries(givenFields.map((field) => [field, experiments[field]])),
+      id: experiments.id,
+      key: experiments.key,
+      name: experiments.name,
+    })
+    .from(experiments)
+    .where(
+      keyed
+        ? and(
+            eq(experiments.workspaceId, workspaceId),
+            inArray(
+              experiments.key,
+              plan.experiments.map((experiment) => experiment.key),
+            ),
+          )
+        : eq(experiments.workspaceId, workspaceId),
     );
-  }
   const experimentByKey = new Map(storedExperiments.map((experiment) => [experiment.key, experiment]));
   const changedExperiments = new Set<string>();
   const experimentIds = new Map<string, number>();
-  const newExperiments: (typeof experiments.$inferInsert)[] = [];
+  const experimentWrites: Record<string, unknown>[] = [];
   for (const planned of plan.experiments) {
     const stored = experimentByKey.get(planned.key);
     if (stored) {
       experimentIds.set(planned.key, stored.id);
-      if (experimentDiffers(stored, planned.fields)) {
-        changedExperiments.add(planned.key);
-        if (options.write) {
-          await executor
-            .update(experiments)
-            .set({ ...planned.fields, updatedAt: options.now })
-            .where(eq(experiments.id, stored.id));
-        }
-      }
-    } else {
-      newExperiments.push({
-        ...planned.fields,
-        workspaceId,
-        key: planned.key,
-        name: planned.fields.name ?? planned.key,
-      });
+      if (!experimentDiffers(stored, planned.fields)) continue;
+      changedExperiments.add(planned.key);
     }
+    experimentWrites.push({
+      ...planned.fields,
+      workspaceId,
+      key: planned.key,
+      // A new experiment needs a name; a stored one keeps its name unless the file gives one.
+      name: planned.fields.name ?? stored?.name ?? planned.key,
+    });
   }
-  if (options.write) {
-    for (const chunk of chunks(newExperiments, insertChunkSize)) {
-      const inserted = await executor
-        .insert(experiments)
-        .values(chunk)
-        .returning({ id: experiments.id, key: experiments.key });
-      for (const row of inserted) experimentIds.set(row.key, row.id);
-    }
+  if (options.write && experimentWrites.length > 0) {
+    const written = await upsertRows(executor, experiments, experimentWrites, {
+      conflict: ["workspaceId", "key"],
+      update: experimentFieldNames,
+      updatedAt: options.now,
+      returning: ["id", "key"],
+    });
+    for (const row of written) experimentIds.set(String(row["key"]), Number(row["id"]));
   }
 
-  const storedResults: ResultRow[] = [];
-  for (const ids of chunks(
-    [...experimentByKey.values()].map((experiment) => experiment.id),
-    insertChunkSize,
-  )) {
-    storedResults.push(...(await executor.select().from(results).where(inArray(results.experimentId, ids))));
-  }
+  const storedResults =
+    storedExperiments.length === 0
+      ? []
+      : await readStoredResults(
+          executor,
+          workspaceId,
+          keyed ? storedExperiments.map((experiment) => experiment.id) : undefined,
+        );
   const resultByPair = new Map(
     storedResults.map((result) => [`${result.experimentId}:${result.metricId}`, result]),
   );
@@ -121,7 +138,7 @@ export async function storeResults(
   let created = 0;
   let updated = 0;
   let unchanged = 0;
-  const inserts: (typeof results.$inferInsert)[] = [];
+  const resultWrites: Record<string, unknown>[] = [];
   const primaryByExperiment = new Map<number, number>();
   for (const planned of plan.results) {
     const experimentId = experimentIds.get(planned.experimentKey);
@@ -136,7 +153,7 @@ export async function storeResults(
     if (!stored) {
       created += 1;
       if (options.write && experimentId !== undefined && metricId !== undefined) {
-        inserts.push({ ...resultValues(planned), experimentId, metricId });
+        resultWrites.push({ ...resultValues(planned), experimentId, metricId });
       }
       continue;
     }
@@ -148,29 +165,108 @@ export async function storeResults(
     ) {
       updated += 1;
       if (options.write && resultChanged) {
-        await executor
-          .update(results)
-          .set({ ...resultValues(planned), updatedAt: options.now })
-          .where(eq(results.id, stored.id));
+        resultWrites.push({
+          ...resultValues(planned),
+          experimentId: stored.experimentId,
+          metricId: stored.metricId,
+        });
       }
     } else {
       unchanged += 1;
     }
   }
   if (options.write) {
-    for (const chunk of chunks(inserts, insertChunkSize)) await executor.insert(results).values(chunk);
+    await upsertRows(executor, results, resultWrites, {
+      conflict: ["experimentId", "metricId"],
+      update: resultFieldNames,
+      updatedAt: options.now,
+    });
     // A stored result of a metric the file does not list keeps its values but not the primary mark.
-    for (const stored of storedResults) {
-      const primaryMetric = primaryByExperiment.get(stored.experimentId);
-      if (stored.isPrimary && primaryMetric !== undefined && primaryMetric !== stored.metricId) {
-        await executor
-          .update(results)
-          .set({ isPrimary: false, updatedAt: options.now })
-          .where(eq(results.id, stored.id));
-      }
+    const demoted = storedResults
+      .filter((stored) => {
+        const primaryMetric = primaryByExperiment.get(stored.experimentId);
+        return stored.isPrimary && primaryMetric !== undefined && primaryMetric !== stored.metricId;
+      })
+      .map((stored) => stored.id);
+    for (const ids of chunks(demoted, 1_000)) {
+      await executor
+        .update(results)
+        .set({ isPrimary: false, updatedAt: options.now })
+        .where(inArray(results.id, ids));
     }
   }
   return { created, updated, unchanged };
+}
+
+/** Experiment properties an import may overwrite (the key and workspace identify the row). */
+const experimentFieldNames: readonly string[] = [
+  "name",
+  "team",
+  "hypothesis",
+  "startedOn",
+  "endedOn",
+  "decision",
+  "decidedOn",
+  "isAa",
+  "stoppedEarly",
+  "plannedAlpha",
+  "plannedPower",
+  "plannedMde",
+  "plannedSplit",
+  "plannedSampleSize",
+] satisfies (keyof ExperimentFields)[];
+
+/** Result properties an import writes (see resultValues). */
+const resultFieldNames: readonly string[] = [
+  "isPrimary",
+  "input",
+  "inputForm",
+  "controlN",
+  "treatmentN",
+  "lift",
+  "liftSe",
+  "absoluteDifference",
+  "srmPValue",
+  "srmFlagged",
+  "notes",
+];
+
+/**
+ * The stored results of the given experiments, or of the whole workspace, in one query. The input
+ * is read as its JSON text: comparing text first spares parsing 20,000 records on a re-import.
+ */
+async function readStoredResults(
+  executor: Executor,
+  workspaceId: number,
+  experimentIds: readonly number[] | undefined,
+): Promise<StoredResult[]> {
+  const fields = {
+    id: results.id,
+    experimentId: results.experimentId,
+    metricId: results.metricId,
+    isPrimary: results.isPrimary,
+    inputText: sql<string>`${results.input}`,
+    inputForm: results.inputForm,
+    controlN: results.controlN,
+    treatmentN: results.treatmentN,
+    lift: results.lift,
+    liftSe: results.liftSe,
+    absoluteDifference: results.absoluteDifference,
+    srmPValue: results.srmPValue,
+    srmFlagged: results.srmFlagged,
+    notes: results.notes,
+  };
+  if (experimentIds !== undefined) {
+    return executor
+      .select(fields)
+      .from(results)
+      .where(inArray(results.experimentId, [...experimentIds]));
+  }
+  return executor
+    .select(fields)
+    .from(results)
+    .innerJoin(experiments, eq(results.experimentId, experiments.id))
+    .where(eq(experiments.workspaceId, workspaceId));
 }
 
 function resultValues(planned: PlannedResult) {
@@ -189,11 +285,11 @@ function resultValues(planned: PlannedResult) {
   };
 }
 
-function resultDiffers(stored: ResultRow, planned: PlannedResult): boolean {
+function resultDiffers(stored: StoredResult, planned: PlannedResult): boolean {
   const values = resultValues(planned);
   return (
     stored.isPrimary !== values.isPrimary ||
-    !sameRecord(stored.input, values.input) ||
+    !sameInput(stored.inputText, values.input) ||
     stored.inputForm !== values.inputForm ||
     stored.controlN !== values.controlN ||
     stored.treatmentN !== values.treatmentN ||
@@ -206,21 +302,25 @@ function resultDiffers(stored: ResultRow, planned: PlannedResult): boolean {
   );
 }
 
-function experimentDiffers(stored: ExperimentRow, fields: ExperimentFields): boolean {
-  return Object.entries(fields).some(([field, value]) => {
-    if (value === undefined) return false;
-    return JSON.stringify(stored[field as keyof ExperimentRow] ?? null) !== JSON.stringify(value);
-  });
+function experimentDiffers(stored: StoredExperiment, fields: ExperimentFields): boolean {
+  for (const [field, value] of Object.entries(fields)) {
+    if (value === undefined) continue;
+    const kept = stored[field as keyof ExperimentRow] ?? null;
+    if (kept === value) continue;
+    // Only the planned split is an array; compare it by value.
+    if (typeof value !== "object" || JSON.stringify(kept) !== JSON.stringify(value)) return true;
+  }
+  return false;
+}
+
+/** Whether the stored JSON text holds the same record (key order aside) as `input`. */
+function sameInput(storedText: string, input: Record<string, string>): boolean {
+  if (storedText === JSON.stringify(input)) return true;
+  return sameRecord(JSON.parse(storedText) as Record<string, string>, input);
 }
 
 function sameRecord(first: Record<string, string>, second: Record<string, string>): boolean {
   const firstKeys = Object.keys(first);
   if (firstKeys.length !== Object.keys(second).length) return false;
   return firstKeys.every((key) => first[key] === second[key]);
-}
-
-export function chunks<Item>(items: readonly Item[], size: number): Item[][] {
-  const list: Item[][] = [];
-  for (let start = 0; start < items.length; start += size) list.push(items.slice(start, start + size));
-  return list;
 }
