@@ -246,3 +246,16 @@ export const computationCache = sqliteTable("computation_cache", {
   value: text("value", { mode: "json" }).notNull().$type<unknown>(),
   createdAt: createdAt(),
 });
+
+/**
+ * A counter per workspace that database triggers (migration 0003_data_version_triggers) bump on
+ * every insert, update or delete of its metrics, experiments, results and realized measurements,
+ * whoever writes them (API, CLI, another process). A cached computation stores the version it read,
+ * so it is validated without reading the history again.
+ */
+export const dataVersions = sqliteTable("data_versions", {
+  workspaceId: integer("workspace_id")
+    .primaryKey()
+    .references(() => workspaces.id, { onDelete: "cascade" }),
+  version: integer("version").notNull().default(0),
+});

@@ -1,51 +1,34 @@
 /**
- * The review cache (table computation_cache). An entry is keyed by SHA-256 of the review settings
- * and a signature of the stored data, so a second identical request on unchanged data is answered
- * from the cache without reading the history again. The signature is one aggregate query over the
- * family's rows (counts, id sums, and id-weighted sums of every value the review reads): any insert,
- * delete or edit of a value changes it. The summary and the per-test table are stored as two
- * entries so that the summary is served without parsing the (large) table.
+ * The review cache (table computation_cache). An entry is keyed by SHA-256 of the workspace, its
+ * data version (bumped by triggers on any write to its history) and the review settings, so a
+ * second identical request on unchanged data is answered from the cache without reading the
+ * history again; the entry carries the SHA-256 fingerprint of the rows it was computed from. The
+ * summary and the per-test table are two entries, so the summary is served without the table.
  */
 import { createHash } from "node:crypto";
-import { and, eq, sql } from "drizzle-orm";
+import { and, eq } from "drizzle-orm";
 import type { Database } from "../db/client.ts";
-import { computationCache, experiments, metrics, realizedMeasurements, results } from "../db/schema.ts";
+import { computationCache, dataVersions } from "../db/schema.ts";
 
 export const reviewCacheKind = "review";
 export const reviewTestsCacheKind = "review-tests";
 
-/** A cheap signature of the workspace's primary results and realized measurements (all families). */
-export async function storedDataSignature(db: Database, workspaceId: number): Promise<string> {
-  const [resultPart] = await db
-    .select({
-      count: sql<number>`count(*)`,
-      ids: sql<number>`total(${results.id})`,
-      values: sql<number>`total(${results.lift} * (${results.id} % 1009 + 1) + ${results.liftSe} * (${results.id} % 997 + 3))`,
-      flags: sql<number>`total((${results.srmFlagged} + 2 * ${results.isPrimary} + 4 * ${experiments.isAa} + 8 * ${experiments.stoppedEarly}) * (${results.id} % 991 + 1))`,
-      decisions: sql<number>`total(length(${experiments.decision}) * unicode(${experiments.decision}) * (${experiments.id} % 983 + 1))`,
-      texts: sql<string>`max(coalesce(${experiments.updatedAt}, '')) || '|' || max(coalesce(${results.updatedAt}, '')) || '|' || total(length(coalesce(${experiments.team}, '')) * (${experiments.id} % 977 + 1) + length(${experiments.name}) + length(${experiments.key}) * 7) || '|' || total(unicode(coalesce(${experiments.team}, ' ')) * (${experiments.id} % 971 + 1))`,
-      dates: sql<string>`total(length(coalesce(${experiments.decidedOn}, '')) + length(coalesce(${experiments.endedOn}, ''))) || '|' || max(coalesce(${experiments.decidedOn}, '')) || '|' || min(coalesce(${experiments.decidedOn}, '')) || '|' || total(cast(replace(coalesce(${experiments.decidedOn}, ${experiments.endedOn}, ${experiments.startedOn}, '0'), '-', '') as integer) % 100003 * (${experiments.id} % 967 + 1))`,
-      families: sql<string>`total(length(${metrics.family}) * (${metrics.id} % 953 + 1))`,
-    })
-    .from(results)
-    .innerJoin(experiments, eq(results.experimentId, experiments.id))
-    .innerJoin(metrics, eq(results.metricId, metrics.id))
-    .where(eq(experiments.workspaceId, workspaceId));
-  const [realizedPart] = await db
-    .select({
-      count: sql<number>`count(*)`,
-      ids: sql<number>`total(${realizedMeasurements.id})`,
-      values: sql<number>`total(${realizedMeasurements.estimate} * (${realizedMeasurements.id} % 1009 + 1) + ${realizedMeasurements.standardError} * (${realizedMeasurements.id} % 997 + 3) + length(${realizedMeasurements.method}) * (${realizedMeasurements.id} % 991 + 1))`,
-    })
-    .from(realizedMeasurements)
-    .innerJoin(metrics, eq(realizedMeasurements.metricId, metrics.id))
-    .where(eq(metrics.workspaceId, workspaceId));
-  return JSON.stringify([resultPart, realizedPart]);
+/**
+ * The workspace's data version: a counter that database triggers bump on every write to its
+ * metrics, experiments, results and realized measurements (schema.ts, dataVersions), so that a
+ * cached review is validated with one primary-key read instead of re-reading the history.
+ */
+export async function storedDataVersion(db: Database, workspaceId: number): Promise<number> {
+  const [row] = await db
+    .select({ version: dataVersions.version })
+    .from(dataVersions)
+    .where(eq(dataVersions.workspaceId, workspaceId));
+  return row?.version ?? 0;
 }
 
-export function reviewCacheKey(settings: unknown, signature: string): string {
+export function reviewCacheKey(workspaceId: number, settings: unknown, dataVersion: number): string {
   return createHash("sha256")
-    .update(`review:v1\n${JSON.stringify(settings)}\n${signature}`)
+    .update(`review:v2\nworkspace ${workspaceId}\ndata version ${dataVersion}\n${JSON.stringify(settings)}`)
     .digest("hex");
 }
 

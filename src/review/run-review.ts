@@ -17,7 +17,7 @@ import {
   reviewCacheKey,
   reviewCacheKind,
   reviewTestsCacheKind,
-  storedDataSignature,
+  storedDataVersion,
   writeCache,
 } from "./review-cache.ts";
 import { type ReviewFilters, resolveFilters } from "./review-filters.ts";
@@ -101,8 +101,8 @@ export async function runReview(
 ): Promise<ReviewOutcome> {
   const settings = resolveReviewSettings(request);
   const progress = options.onProgress ?? (() => undefined);
-  const signature = await storedDataSignature(db, workspaceId);
-  const cacheKey = reviewCacheKey(settings, signature);
+  const dataVersion = await storedDataVersion(db, workspaceId);
+  const cacheKey = reviewCacheKey(workspaceId, settings, dataVersion);
   // cache_key is the table's primary key: the table gets its own key.
   const testsCacheKey = `${cacheKey}:tests`;
   const cachedSummary = await readCache<ReviewSummary>(db, cacheKey, reviewCacheKind);

@@ -1,6 +1,6 @@
 import { eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { experiments, reviews } from "../../src/db/schema.ts";
+import { dataVersions, experiments, results, reviews, workspaces } from "../../src/db/schema.ts";
 import { generateDemo } from "../../src/demo/generate-demo.ts";
 import { quarterOf, quarterRange, resolveFilters } from "../../src/review/review-filters.ts";
 import { runReview } from "../../src/review/run-review.ts";
@@ -34,6 +34,27 @@ describe("review filters", () => {
     expect(() => resolveFilters({ quarter: "2026Q5" })).toThrow(StatsInputError);
     expect(() => resolveFilters({ quarter: "2026Q1", from: "2026-01-01" })).toThrow(StatsInputError);
     expect(() => resolveFilters({ from: "2026-03-01", to: "2026-01-01" })).toThrow(StatsInputError);
+  });
+});
+
+describe("data version triggers", () => {
+  it("bump the workspace's version on every write and let a workspace be deleted", async () => {
+    const { workspaceId: other } = await seedHistory(
+      handle.db,
+      "scratch",
+      demo.truth.experiments.slice(0, 20),
+    );
+    const version = async (id: number) =>
+      (await handle.db.select().from(dataVersions).where(eq(dataVersions.workspaceId, id)))[0]?.version ?? 0;
+    const before = await version(other);
+    expect(before).toBeGreaterThan(0);
+    await handle.db.update(results).set({ liftSe: 0.5 }).where(eq(results.id, 1));
+    await handle.db.update(experiments).set({ team: "Renamed" }).where(eq(experiments.workspaceId, other));
+    expect(await version(other)).toBeGreaterThan(before);
+    await handle.db.delete(workspaces).where(eq(workspaces.id, other));
+    expect(await handle.db.select().from(dataVersions).where(eq(dataVersions.workspaceId, other))).toEqual(
+      [],
+    );
   });
 });
 
