@@ -20,7 +20,6 @@
  * Cost: O(R N K) time for R portfolios, N tests and K rules; memory O(R K G) for G groups.
  * The simulation runs in steps (`advance`) so that callers can yield to an event loop.
  */
-import { componentLikelihood } from "./component-likelihood.ts";
 import { normalSurvival } from "./distributions.ts";
 import type { EffectPrior } from "./effect-prior.ts";
 import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
@@ -58,6 +57,8 @@ export interface ShippingExpectations {
     threshold: number,
     effectAbove: number,
   ): number;
+  /** Prior predictive density of the estimate y at `at` (for E[(y - theta) 1{ship}] = s^2 f_Y(t)). */
+  predictiveDensity(prior: EffectPrior, standardError: number, at: number): number;
 }
 
 export interface BacklogForecastInput {
@@ -414,7 +415,7 @@ interface TestExpectation {
   readonly probabilityOfShipping: number | null;
   readonly probabilityOfRealWin: number | null;
   readonly expectedShippedEffect: number | null;
-  /** E[(y - theta) 1{ship}]: the winner's-curse part of the claimed lift (null without a closed form). */
+  /** E[(y - theta) 1{ship}]: the winner's-curse part of the claimed lift. */
   readonly expectedShippedNoise: number | null;
 }
 
@@ -431,7 +432,7 @@ function testExpectation(
       expectedShippedNoise: null,
     };
   return {
-    expectedShippedNoise: expectedShippedNoise(test.prior, test.standardError, threshold),
+    expectedShippedNoise: expectedShippedNoise(expectations, test.prior, test.standardError, threshold),
     probabilityOfShipping: expectations.probabilityOfShipping(test.prior, test.standardError, threshold),
     probabilityOfRealWin: expectations.probabilityOfShippingAbove(
       test.prior,
@@ -444,21 +445,23 @@ function testExpectation(
 }
 
 /**
- * E[(y - theta) 1{y > t}] = E_theta[s phi((t - theta)/s)] = s^2 f_Y(t), with f_Y the marginal
- * density of the estimate (the Gaussian integration-by-parts identity behind Tweedie's formula;
- * Efron 2011, "Tweedie's formula and selection bias", JASA 106:1602). f_Y is the mixture of the
- * components' marginal likelihoods (component-likelihood.ts); half-t components have no closed
- * form there, so the expectation is left out (null) for priors that hold one.
+ * E[(y - theta) 1{y > t}] = E_theta[s phi((t - theta)/s)] = s^2 f_Y(t), with f_Y the prior
+ * predictive density of the estimate at the threshold (the Gaussian integration-by-parts identity
+ * behind Tweedie's formula; Efron 2011, "Tweedie's formula and selection bias", JASA 106:1602).
+ * f_Y comes from src/stats/shipping-expectation.ts, closed form for point, normal, uniform and
+ * (truncated) half-normal components and adaptive quadrature for half-t ones, so the expectation
+ * exists for every prior; null only when that density is not finite.
  */
-function expectedShippedNoise(prior: EffectPrior, standardError: number, threshold: number): number | null {
-  let density = 0;
-  for (const { component, weight } of prior.components) {
-    if (weight === 0) continue;
-    const likelihood = componentLikelihood(component, threshold, standardError);
-    if (!Number.isFinite(likelihood)) return null;
-    density += weight * likelihood;
-  }
-  return standardError * standardError * density;
+function expectedShippedNoise(
+  expectations: ShippingExpectations,
+  prior: EffectPrior,
+  standardError: number,
+  threshold: number,
+): number | null {
+  // An infinite threshold ships never or always: either way the noise shipped averages 0.
+  if (!Number.isFinite(threshold)) return 0;
+  const density = expectations.predictiveDensity(prior, standardError, threshold);
+  return Number.isFinite(density) ? standardError * standardError * density : null;
 }
 
 function withExpected(values: Float64Array, expected: number | null): OutcomeSummary {
@@ -481,7 +484,7 @@ function forecastAssumptions(simulations: number, analytic: boolean): string[] {
     `Means carry a Monte Carlo error (sd / sqrt(${simulations})); quantiles are R type 7 over the ${simulations} simulated portfolios.`,
     "Rules are compared on the same draws of true effects and noise (common random numbers).",
     analytic
-      ? "Expected values beside the simulated means are exact sums over the planned tests (shipped, real and false wins, realized lift; claimed lift and the gap through E[(y - theta) 1{ship}] = s^2 f(threshold), left out for half-t priors, which have no closed form)."
+      ? "Expected values beside the simulated means are exact sums over the planned tests (shipped, real and false wins, realized lift; claimed lift and the gap through E[(y - theta) 1{ship}] = s^2 f(threshold), f the predictive density of the estimate, integrated numerically for half-t priors)."
       : "No analytic expectations were available for this run.",
   ];
 }

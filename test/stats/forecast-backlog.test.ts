@@ -151,26 +151,28 @@ describe("forecastBacklog: simulated means against exact expectations (scipy qua
           rule.realizedLift,
           rule.realizedLift.expected!,
         );
-        // Claimed lift through s^2 f(threshold): closed form for normal and uniform components only.
-        if (priorName === "fat") {
-          expect(rule.claimedLift.expected).toBeNull();
-          expect(rule.liftGap.expected).toBeNull();
-        } else {
-          expectClose(
-            "expected claimedLift",
-            inputs,
-            rule.claimedLift.expected!,
-            total((entry) => entry.expectedShippedEstimate),
-            exactTolerance,
-          );
-          expectClose(
-            "expected liftGap",
-            inputs,
-            rule.liftGap.expected!,
-            total((entry) => entry.expectedShippedEstimate - entry.expectedShippedEffect),
-            exactTolerance,
-          );
-        }
+        // Claimed lift through s^2 f(threshold), f the predictive density (numerical for half-t).
+        expectClose(
+          "expected claimedLift",
+          inputs,
+          rule.claimedLift.expected!,
+          total((entry) => entry.expectedShippedEstimate),
+          exactTolerance,
+        );
+        expectClose(
+          "expected liftGap",
+          inputs,
+          rule.liftGap.expected!,
+          total((entry) => entry.expectedShippedEstimate - entry.expectedShippedEffect),
+          exactTolerance,
+        );
+        expectWithinMonteCarlo(
+          "claimed vs built-in expectation",
+          inputs,
+          rule.claimedLift,
+          rule.claimedLift.expected!,
+        );
+        expectWithinMonteCarlo("gap vs built-in expectation", inputs, rule.liftGap, rule.liftGap.expected!);
         // Per test: the share of portfolios that shipped it is a binomial proportion.
         for (const [index, test] of rule.tests.entries()) {
           const exact = ruleCases[Math.floor(index / 3)]!.probabilityOfShipping;
@@ -182,7 +184,14 @@ describe("forecastBacklog: simulated means against exact expectations (scipy qua
         // The difference between the rules on common draws against the difference of expectations.
         if (ruleIndex === 1) {
           const difference = forecast.differences[0]!;
-          for (const quantity of ["shipped", "realWins", "falseWins", "realizedLift"] as const)
+          for (const quantity of [
+            "shipped",
+            "realWins",
+            "falseWins",
+            "claimedLift",
+            "realizedLift",
+            "liftGap",
+          ] as const)
             expectWithinMonteCarlo(
               `difference in ${quantity}`,
               inputs,
@@ -344,6 +353,7 @@ describe("forecastBacklog: common random numbers and seeds", () => {
         },
         probabilityOfShippingAbove: () => 0.25,
         expectedShippedEffect: () => 0.001,
+        predictiveDensity: () => 10,
       },
     });
     const rule = withExpectations.rules[0]!;
@@ -351,6 +361,10 @@ describe("forecastBacklog: common random numbers and seeds", () => {
     expect(rule.realWins.expected).toBeCloseTo(10, 12);
     expect(rule.falseWins.expected).toBeCloseTo(10, 12);
     expect(rule.realizedLift.expected).toBeCloseTo(0.04, 12);
+    // Gap: sum of s^2 f over the 40 tests, s = 0.005 + 0.0005 i.
+    const squares = Array.from({ length: 40 }, (_, index) => (0.005 + 0.0005 * index) ** 2);
+    expect(rule.liftGap.expected).toBeCloseTo(10 * squares.reduce((sum, value) => sum + value, 0), 12);
+    expect(rule.claimedLift.expected).toBeCloseTo(rule.realizedLift.expected! + rule.liftGap.expected!, 12);
     // Thresholds are on the lift scale: z* s.
     expectClose("first threshold", {}, calls[0]!, criticalValueForAlpha(0.05) * 0.005, { relative: 1e-12 });
   });
