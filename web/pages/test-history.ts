@@ -16,6 +16,7 @@ import {
   textFrom,
   withLoading,
 } from "./common.ts";
+import { historyIndex } from "./history-index.ts";
 
 interface ResultSummary {
   readonly metricKey: string;
@@ -59,17 +60,6 @@ export const decisionLabels: Readonly<Record<string, string>> = {
   pending: "pending",
 };
 
-/** Every team named in the history: the API has no team list, so read the experiments once. */
-async function allTeams(): Promise<string[]> {
-  const teams = new Set<string>();
-  for (let offset = 0; ; offset += 500) {
-    const page = await apiJson<ExperimentPage>(`/api/v1/experiments?limit=500&offset=${offset}`);
-    for (const item of page.items) if (item.team) teams.add(item.team);
-    if (offset + page.items.length >= page.total || page.items.length === 0) break;
-  }
-  return [...teams].sort((left, right) => left.localeCompare(right));
-}
-
 function flags(experiment: Experiment): HTMLElement[] {
   const badges: HTMLElement[] = [];
   if (experiment.results.some((result) => result.srmFlagged))
@@ -100,7 +90,7 @@ startPage(async (root) => {
   const parameters = new URLSearchParams(location.search);
   const [metrics, teams] = await Promise.all([
     apiJson<{ items: Metric[] }>("/api/v1/metrics").then((body) => body.items),
-    allTeams(),
+    historyIndex().then((index) => index.teams),
   ]);
   const form = el(
     "form",
