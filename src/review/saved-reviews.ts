@@ -33,7 +33,9 @@ export interface SavedReviewListing {
   readonly id: number;
   readonly label: string;
   readonly createdAt: string;
+  /** The metric family reviewed. */
   readonly family: string;
+  readonly priorFamily: string;
   readonly dataFingerprint: string;
   readonly shipped: number;
   readonly falseDiscoveryRate: number | null;
@@ -104,7 +106,8 @@ export async function listReviews(db: Database, workspaceId: number): Promise<Sa
       id: row.id,
       label: row.label,
       createdAt: row.createdAt,
-      family: summary.family,
+      family: summary.metricFamily,
+      priorFamily: summary.priorFamily,
       dataFingerprint: row.dataFingerprint,
       shipped: summary.shipped,
       falseDiscoveryRate: summary.falseDiscoveryRate.estimate,

@@ -169,7 +169,8 @@ export interface SensitivityRow {
 }
 
 export interface ProgramReview {
-  readonly family: string;
+  /** The prior family the figures use (the metric family is the caller's). */
+  readonly priorFamily: string;
   readonly counts: {
     readonly tests: number;
     readonly included: number;
@@ -599,7 +600,7 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
       .map(([name, matrix]) => ({ [key]: name, ...matrix }) as ConfusionMatrix & Record<K, string>);
 
   return {
-    family: input.fit.family,
+    priorFamily: input.fit.family,
     counts: {
       tests: input.tests.length,
       included: included.length,

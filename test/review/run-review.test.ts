@@ -67,7 +67,8 @@ describe("runReview on a stored workspace", () => {
       { includeTests: true },
     );
     expect(first.cached).toBe(false);
-    expect(first.summary.family === "skewed" || first.summary.family === "symmetric").toBe(true);
+    expect(["skewed", "symmetric"]).toContain(first.summary.priorFamily);
+    expect(first.summary.metricFamily).toBe("conversion");
     expect(first.summary.dataFingerprint).toMatch(/^[0-9a-f]{64}$/);
     expect(first.tests?.length).toBe(first.summary.counts.included);
     const second = await runReview(
