@@ -83,7 +83,9 @@ export function parseChoice<Choice extends string>(
     .replace(/[\s-]+/g, "_");
   const choice = choices.find((candidate) => candidate === word);
   if (choice !== undefined) return { ok: true, value: choice };
-  return failure(`"${text}" is not one of ${choices.join(", ")}`);
+  return failure(
+    `"${text}" is not one of ${choices.join(", ")}: write one of these (case, spaces and hyphens do not matter)`,
+  );
 }
 
 /**

@@ -164,11 +164,15 @@ export function planResults(table: Table, storedMetrics: ReadonlyMap<string, Sto
     const fields = agreeExperimentFields(rows, table.columns);
     if (fields.startedOn && fields.endedOn && fields.endedOn < fields.startedOn) {
       const row = rows.find((reader) => reader.has("ended_on")) ?? rows[0];
-      row?.fail("ended_on", `${fields.endedOn} is before started_on ${fields.startedOn}`);
+      row?.fail(
+        "ended_on",
+        `${fields.endedOn} is before started_on ${fields.startedOn}: check both dates (one may be mistyped, or the two swapped)`,
+      );
     }
     experiments.push({ key, fields });
-    const primaryRow = choosePrimary(key, rows);
+    // Duplicates are reported first, so that a repeated row is not also blamed as a second primary.
     const seenMetrics = new Map<string, number>();
+    const distinctRows: RowReader[] = [];
     for (const reader of rows) {
       const metricKey = reader.text("metric");
       if (metricKey === undefined) continue;
@@ -176,11 +180,16 @@ export function planResults(table: Table, storedMetrics: ReadonlyMap<string, Sto
       if (earlier !== undefined) {
         reader.fail(
           "metric",
-          `experiment "${key}" and metric "${metricKey}" appear twice, on rows ${earlier} and ${reader.row}: give one row per experiment x metric`,
+          `experiment "${key}" and metric "${metricKey}" appear twice, on rows ${earlier} and ${reader.row}: give one row per experiment x metric (delete one, or correct its experiment or metric)`,
         );
         continue;
       }
       seenMetrics.set(metricKey, reader.row);
+      distinctRows.push(reader);
+    }
+    const primaryRow = choosePrimary(key, distinctRows);
+    for (const reader of distinctRows) {
+      const metricKey = reader.text("metric") as string;
       const metric = metrics.get(metricKey);
       const result = planResult(
         reader,

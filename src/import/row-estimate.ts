@@ -217,14 +217,11 @@ function countsCandidate(reader: RowReader): Candidate | undefined {
   if (controlConversions === undefined || treatmentConversions === undefined) return undefined;
   let bad = false;
   if (controlConversions > controlN) {
-    reader.fail("control_conversions", `${controlConversions} conversions exceed control_n ${controlN}`);
+    reader.fail("control_conversions", conversionsMessage(controlConversions, "control_n", controlN));
     bad = true;
   }
   if (treatmentConversions > treatmentN) {
-    reader.fail(
-      "treatment_conversions",
-      `${treatmentConversions} conversions exceed treatment_n ${treatmentN}`,
-    );
+    reader.fail("treatment_conversions", conversionsMessage(treatmentConversions, "treatment_n", treatmentN));
     bad = true;
   }
   if (bad) return undefined;
@@ -242,6 +239,10 @@ function countsCandidate(reader: RowReader): Candidate | undefined {
     standardErrorRange: point(estimate.standardError),
     absoluteDifference: estimate.absoluteDifference,
   };
+}
+
+function conversionsMessage(conversions: number, nColumn: string, n: number): string {
+  return `${conversions} conversions exceed ${nColumn} ${n}: an arm cannot convert more units than it has; check that the columns are not swapped and that the count is of converted units, not of events`;
 }
 
 function meansCandidate(reader: RowReader): Candidate | undefined {

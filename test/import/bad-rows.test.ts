@@ -199,6 +199,9 @@ describe("import: every kind of bad row is reported with row, column and a messa
       "metric",
       /experiment "exp-1" and metric "signup_rate" appear twice, on rows 2 and 4/,
     );
+    // A repeated primary row is a duplicate, not a second primary: one error, not two.
+    const repeated = await errorsOf([countsRow({ primary: "yes" }), countsRow({ primary: "yes" })]);
+    expect(repeated.map((error) => [error.row, error.column])).toEqual([[3, "metric"]]);
   });
 
   it("duplicate rows in a realized-measurements file, naming both rows", async () => {

@@ -35,7 +35,12 @@ describe("import: all or nothing, idempotent, dry run, limits, JSON", () => {
     expect(report.rows).toBe(1000);
     // rows[736] is data row 737, CSV row 738 (the header is row 1).
     expect(report.errors).toEqual([
-      { row: 738, column: "treatment_conversions", message: "5000 conversions exceed treatment_n 1000" },
+      {
+        row: 738,
+        column: "treatment_conversions",
+        message:
+          "5000 conversions exceed treatment_n 1000: an arm cannot convert more units than it has; check that the columns are not swapped and that the count is of converted units, not of events",
+      },
     ]);
     const stored = await context.snapshot();
     expect(stored).toEqual({ metrics: [], experiments: [], results: [], realized: [] });
