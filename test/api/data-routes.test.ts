@@ -46,11 +46,11 @@ describe("experiments", () => {
     expect(await keysOf("?metric=beta-latency")).toEqual([]);
   });
 
-  it("filters by the time an experiment ran (overlap; no end date = still running)", async () => {
-    // alpha-001 ran 2024-01-08..01-29, alpha-002 2024-03-04..03-25, alpha-003 from 2024-06-03 on.
-    expect(await keysOf("?from=2024-01-29&to=2024-03-04")).toEqual(["alpha-001", "alpha-002"]);
-    expect(await keysOf("?from=2024-01-30&to=2024-03-03")).toEqual([]);
-    expect(await keysOf("?from=2025-01-01")).toEqual(["alpha-003"]);
+  it("filters by start date, both ends included (the same meaning as plumbline experiments list)", async () => {
+    // alpha-001 started 2024-01-08, alpha-002 2024-03-04, alpha-003 2024-06-03.
+    expect(await keysOf("?from=2024-01-08&to=2024-03-04")).toEqual(["alpha-001", "alpha-002"]);
+    expect(await keysOf("?from=2024-01-09&to=2024-03-03")).toEqual([]);
+    expect(await keysOf("?from=2024-05-01")).toEqual(["alpha-003"]);
     expect(await keysOf("?to=2024-01-08")).toEqual(["alpha-001"]);
   });
 

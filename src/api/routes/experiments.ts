@@ -4,22 +4,9 @@
  * asking for another workspace's experiment answers 404, exactly as for a key that never existed.
  */
 import { createRoute, OpenAPIHono, z } from "@hono/zod-openapi";
-import {
-  and,
-  asc,
-  count,
-  desc,
-  eq,
-  exists,
-  gte,
-  inArray,
-  isNotNull,
-  isNull,
-  lte,
-  or,
-  type SQL,
-} from "drizzle-orm";
+import { and, asc, count, desc, eq, inArray } from "drizzle-orm";
 import { experiments, metrics, results } from "../../db/schema.ts";
+import { experimentFilterCondition } from "../../history/experiment-filters.ts";
 import { requiredRole } from "../auth.ts";
 import {
   authenticatedErrors,
@@ -94,7 +81,7 @@ const ExperimentsQuerySchema = PaginationQuerySchema.extend({
     .openapi({ description: "Only experiments with a result on this metric (key)" }),
   decision: DecisionSchema.optional(),
   from: IsoDateSchema.optional().openapi({
-    description: "Only experiments still running on or after this date (no end date = still running)",
+    description: "Only experiments started on or after this date",
   }),
   to: IsoDateSchema.optional().openapi({ description: "Only experiments started on or before this date" }),
 }).refine((query) => !query.from || !query.to || query.from <= query.to, {
@@ -183,30 +170,7 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
       }),
       async (c) => {
         const query = c.req.valid("query");
-        const conditions: (SQL | undefined)[] = [eq(experiments.workspaceId, c.get("auth").workspaceId)];
-        if (query.team !== undefined) conditions.push(eq(experiments.team, query.team));
-        if (query.decision !== undefined) conditions.push(eq(experiments.decision, query.decision));
-        if (query.metric !== undefined) {
-          conditions.push(
-            exists(
-              db
-                .select({ one: results.id })
-                .from(results)
-                .innerJoin(metrics, eq(metrics.id, results.metricId))
-                .where(and(eq(results.experimentId, experiments.id), eq(metrics.key, query.metric))),
-            ),
-          );
-        }
-        // Overlap with [from, to]: an experiment without an end date is still running.
-        if (query.from !== undefined)
-          conditions.push(
-            or(
-              gte(experiments.endedOn, query.from),
-              and(isNull(experiments.endedOn), isNotNull(experiments.startedOn)),
-            ),
-          );
-        if (query.to !== undefined) conditions.push(lte(experiments.startedOn, query.to));
-        const where = and(...conditions);
+        const where = experimentFilterCondition(db, c.get("auth").workspaceId, query);
         const [rows, totals] = await Promise.all([
           db
             .select()

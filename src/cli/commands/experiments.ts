@@ -6,8 +6,9 @@
  * own results. Works directly on the database.
  */
 import { parseArgs } from "node:util";
-import { and, asc, count, eq, exists, gte, inArray, isNotNull, lte, type SQL } from "drizzle-orm";
+import { asc, count, eq, inArray } from "drizzle-orm";
 import { experiments, metrics, results, workspaces } from "../../db/schema.ts";
+import { experimentFilterCondition } from "../../history/experiment-filters.ts";
 import { parseDate } from "../../import/cell-parsers.ts";
 import { decisions } from "../../import/layouts.ts";
 import type { CommandIo } from "../io.ts";
@@ -128,27 +129,13 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
         );
         return 1;
       }
-      const conditions: SQL[] = [eq(experiments.workspaceId, workspace.id)];
-      if (values.team !== undefined) conditions.push(eq(experiments.team, values.team));
-      if (decision !== undefined)
-        conditions.push(eq(experiments.decision, decision as (typeof decisions)[number]));
-      if (values.metric !== undefined) {
-        conditions.push(
-          exists(
-            db
-              .select({ id: results.id })
-              .from(results)
-              .innerJoin(metrics, eq(results.metricId, metrics.id))
-              .where(and(eq(results.experimentId, experiments.id), eq(metrics.key, values.metric))),
-          ),
-        );
-      }
-      // ISO dates compare as text; an experiment without started_on cannot be placed in a range.
-      if (range.from !== undefined || range.to !== undefined)
-        conditions.push(isNotNull(experiments.startedOn));
-      if (range.from !== undefined) conditions.push(gte(experiments.startedOn, range.from));
-      if (range.to !== undefined) conditions.push(lte(experiments.startedOn, range.to));
-      const where = and(...conditions);
+      const where = experimentFilterCondition(db, workspace.id, {
+        team: values.team,
+        decision: decision as (typeof decisions)[number] | undefined,
+        metric: values.metric,
+        from: range.from,
+        to: range.to,
+      });
       const [totalRow] = await db.select({ n: count() }).from(experiments).where(where);
       const total = totalRow?.n ?? 0;
       const ordered = db
