@@ -136,10 +136,11 @@ function solve(
   const direction = new Float64Array(rowCount);
   const gradient = new Float64Array(columns);
   const ratioSums = new Float64Array(columns);
-  if (!computeFitted(values, columns, rows, x, fitted)) {
-    x.fill(1 / columns);
-    computeFitted(values, columns, rows, x, fitted);
-  }
+  computeFitted(values, columns, rows, x, fitted);
+  // A row that the starting weights barely explain (its best columns have no weight) makes the
+  // quadratic model useless: its gradient entry is ~1/u_r. Give such rows' best columns the mean
+  // weight first, so that every u_r >= that weight (row maxima are 1), as a uniform start would.
+  if (repairStart(values, columns, rows, x, fitted)) computeFitted(values, columns, rows, x, fitted);
   let objective = objectiveAt(fitted, rowWeights, penalty, x, totalWeight, 0, direction);
   let iterations = 0;
   let gap = Number.POSITIVE_INFINITY;
@@ -209,8 +210,11 @@ function solve(
       if ((hessian[base + j] as number) > largestDiagonal) largestDiagonal = hessian[base + j] as number;
     }
     // A tiny ridge keeps the model strictly convex when columns are nearly collinear.
-    const ridge = 1e-10 * Math.max(largestDiagonal, 1e-300);
-    for (let j = 0; j < size; j++) hessian[j * size + j] = (hessian[j * size + j] as number) + ridge;
+    // relative to each diagonal entry, which can differ by many orders of magnitude.
+    for (let j = 0; j < size; j++) {
+      const diagonal = hessian[j * size + j] as number;
+      hessian[j * size + j] = diagonal + 1e-10 * Math.max(diagonal, 1e-300 * largestDiagonal, 1e-300);
+    }
 
     // Quadratic model in y (the new point): 0.5 y'Hy + (g - Hx)'y, y >= 0.
     const linear = new Float64Array(size);
@@ -221,7 +225,21 @@ function solve(
       for (let m = 0; m < size; m++) product += (hessian[j * size + m] as number) * (current[m] as number);
       linear[j] = (gradient[workingIndex[j] as number] as number) - product;
     }
-    const target = solveNonNegativeQuadratic(hessian, linear, current, size);
+    // Jacobi scaling z = sqrt(diag H) y keeps the bound constraints and makes the QP well
+    // conditioned when a column's curvature dwarfs the others' (a row that the current weights
+    // barely explain); the solution is mapped back.
+    const diagonalRoot = new Float64Array(size);
+    for (let j = 0; j < size; j++) diagonalRoot[j] = Math.sqrt(hessian[j * size + j] as number);
+    for (let j = 0; j < size; j++) {
+      for (let m = 0; m < size; m++)
+        hessian[j * size + m] =
+          (hessian[j * size + m] as number) / ((diagonalRoot[j] as number) * (diagonalRoot[m] as number));
+      linear[j] = (linear[j] as number) / (diagonalRoot[j] as number);
+    }
+    const scaledCurrent = current.map((value, j) => value * (diagonalRoot[j] as number));
+    const target = solveNonNegativeQuadratic(hessian, linear, scaledCurrent, size).map(
+      (value, j) => value / (diagonalRoot[j] as number),
+    );
 
     // Search direction p = y - x over the working columns; direction_r = (L p)_r.
     const step = new Float64Array(size);
@@ -274,6 +292,45 @@ function solve(
   for (let k = 0; k < columns; k++) total += x[k] as number;
   const weights = x.map((value) => value / total);
   return { weights, iterations, converged: gap <= tolerance, optimalityGap: gap };
+}
+
+const poorlyExplainedRow = 1e-8;
+
+function repairStart(
+  values: Float64Array,
+  columns: number,
+  rows: Int32Array,
+  x: Float64Array,
+  fitted: Float64Array,
+): boolean {
+  let support = 0;
+  let total = 0;
+  for (let k = 0; k < columns; k++) {
+    if ((x[k] as number) > 0) support++;
+    total += x[k] as number;
+  }
+  const meanWeight = total / Math.max(support, 1);
+  const added = new Uint8Array(columns);
+  let repaired = false;
+  for (let r = 0; r < rows.length; r++) {
+    if ((fitted[r] as number) >= poorlyExplainedRow * meanWeight) continue;
+    const offset = (rows[r] as number) * columns;
+    let best = 0;
+    for (let k = 1; k < columns; k++)
+      if ((values[offset + k] as number) > (values[offset + best] as number)) best = k;
+    if (!added[best]) {
+      added[best] = 1;
+      repaired = true;
+    }
+  }
+  if (!repaired) return false;
+  let sum = 0;
+  for (let k = 0; k < columns; k++) {
+    if (added[k]) x[k] = (x[k] as number) + meanWeight;
+    sum += x[k] as number;
+  }
+  for (let k = 0; k < columns; k++) x[k] = (x[k] as number) / sum;
+  return true;
 }
 
 /** u_r = sum_k x_k L_rk over the support of x; false when a row gets likelihood 0. */
@@ -376,12 +433,10 @@ export function solveNonNegativeQuadratic(
   let atFreeMinimum = false;
   const maxSteps = 10 * size + 50;
   for (let iteration = 0; iteration < maxSteps; iteration++) {
-    let scale = 0;
     for (let j = 0; j < size; j++) {
       let sum = linear[j] as number;
       for (let m = 0; m < size; m++) sum += (hessian[j * size + m] as number) * (y[m] as number);
       gradient[j] = sum;
-      scale = Math.max(scale, Math.abs(linear[j] as number));
     }
     const freeIndex: number[] = [];
     for (let j = 0; j < size; j++) if (free[j]) freeIndex.push(j);
@@ -398,7 +453,8 @@ export function solveNonNegativeQuadratic(
     if (atFreeMinimum || stepNorm <= 1e-15 * (1 + yNorm)) {
       atFreeMinimum = false;
       let entering = -1;
-      let mostNegative = -1e-14 * (1 + scale);
+      // In Jacobi-scaled units (unit diagonal) a multiplier is comparable across columns.
+      let mostNegative = -1e-13;
       for (let j = 0; j < size; j++) {
         if (!free[j] && (gradient[j] as number) < mostNegative) {
           mostNegative = gradient[j] as number;
