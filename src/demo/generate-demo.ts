@@ -16,6 +16,8 @@
  *    textbook rule decides: ship when y / s > z_{1 - alpha/2}.
  * 5. Some shipped tests get a holdout measurement: true effect + noise of a stated SE.
  */
+
+import { resultsColumns as historyColumns, realizedColumns } from "../import/layouts.ts";
 import { normalQuantile } from "../stats/distributions.ts";
 import { createPriorSampler, type PriorSampler } from "../stats/prior-sampling.ts";
 import { createRandom, type RandomSource } from "../stats/random.ts";
@@ -117,46 +119,8 @@ export interface DemoData {
   readonly truth: DemoTruth;
 }
 
-export const historyColumns = [
-  "experiment",
-  "name",
-  "team",
-  "metric",
-  "metric_kind",
-  "direction",
-  "started_on",
-  "ended_on",
-  "decision",
-  "is_aa",
-  "stopped_early",
-  "planned_alpha",
-  "planned_power",
-  "planned_mde",
-  "control_n",
-  "treatment_n",
-  "control_conversions",
-  "treatment_conversions",
-  "control_mean",
-  "control_sd",
-  "treatment_mean",
-  "treatment_sd",
-  "lift",
-  "lift_se",
-  "lift_ci_low",
-  "lift_ci_high",
-  "ci_level",
-  "p_value",
-  "primary",
-] as const;
-
-export const realizedColumns = [
-  "experiment",
-  "metric",
-  "realized_lift",
-  "realized_se",
-  "method",
-  "measured_on",
-] as const;
+/** The demo writes the importer's own canonical layouts, so the two cannot drift apart. */
+export { realizedColumns, resultsColumns as historyColumns } from "../import/layouts.ts";
 
 const millisecondsPerDay = 86400000;
 
