@@ -280,7 +280,7 @@ function buildForm(families: readonly string[]): HTMLFormElement {
   });
   return el(
     "form",
-    { class: "settings", "aria-label": "Calibration inputs" },
+    { class: "settings", "aria-label": "Calibration inputs", novalidate: true },
     el("fieldset", {}, el("legend", {}, "Prior of true effects"), field("Source", source), fitted, assumed),
     el("fieldset", {}, el("legend", {}, "Metric"), field("Kind", kind), rate, mean),
     el(
