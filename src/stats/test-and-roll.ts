@@ -1,19 +1,22 @@
 /**
  * Test & roll: test two treatments on n1 and n2 users of a finite population of N, then deploy
- * the one with the better observed mean to the remaining N - n1 - n2 (Feit & Berman 2019,
- * "Test & Roll: Profit-Maximizing A/B Tests", Marketing Science 38:1038).
+ * the one with the higher posterior mean response to the remaining N - n1 - n2 (Feit & Berman
+ * 2019, "Test & Roll: Profit-Maximizing A/B Tests", Marketing Science 38:1038).
  *
  * Model (their section 3): mean responses m_j ~ N(mu_j, sigma_j^2) a priori, independent; a user's
- * response in arm j ~ N(m_j, s_j^2). Expected profit of the plan
- *   E[profit] = n1 mu1 + n2 mu2 + (N - n1 - n2) E[m of the deployed arm],
- *   E[m deployed] = mu2 + E[D 1{Dhat > 0}], D = m1 - m2 ~ N(mu1 - mu2, sigma1^2 + sigma2^2),
- *   Dhat = D + N(0, s1^2/n1 + s2^2/n2),
- * computed exactly with the normal partial expectation of shipping-expectation.ts. With symmetric
- * priors this is their closed form (N - 2n)[mu + sqrt(2) sigma^2 / (sqrt(pi) sqrt(2 sigma^2 + 2 s^2/n))] + 2 n mu,
+ * response in arm j ~ N(m_j, s_j^2). The posterior mean of arm j after n_j users is normal a
+ * priori-predictively with mean mu_j and variance sigma_j^4 / (sigma_j^2 + s_j^2 / n_j), so with
+ * e = mu1 - mu2 and v^2 the sum of those two variances (their eq. 18)
+ *   E[profit] = n1 mu1 + n2 mu2 + (N - n1 - n2) (mu2 + e Phi(e/v) + v phi(e/v)).
+ * With symmetric priors the posterior-mean rule is "deploy the higher observed mean", the profit
+ * is their closed form (N - 2n)[mu + sqrt(2) sigma^2 / (sqrt(pi) sqrt(2 sigma^2 + 2 s^2/n))] + 2 n mu,
  * maximised by n* = sqrt(N/4 (s/sigma)^2 + (3/4 (s/sigma)^2)^2) - 3/4 (s/sigma)^2 (statistics.md
  * section 7). Perfect information earns N E[max(m1, m2)]; regret is the difference.
- * The error rate is P(deploying the arm with the lower mean); for symmetric priors it equals
- * 1/2 - arctan(sigma sqrt(n) / s) / pi (Sheppard's orthant formula on (D, Dhat); derived here).
+ * The error rate is P(deploying the arm with the lower mean): D = m1 - m2 and the decision
+ * statistic Q = P1 - P2 are jointly normal with Cov(D, Q) = Var(Q) = v^2, so D = Q + W with W
+ * independent of Q, Var(W) = sigma1^2 + sigma2^2 - v^2, and the error is an orthant probability
+ * (shipping-expectation.ts). For symmetric priors it equals 1/2 - arctan(sigma sqrt(n) / s) / pi
+ * (Feit & Berman eq. 12; Sheppard's orthant formula).
  * Unequal priors: the profit is maximised numerically over (log n1, log n2) by Nelder-Mead.
  */
 import { normalCdf, normalPdf } from "./distributions.ts";
@@ -38,7 +41,7 @@ export interface TestAndRollProblem {
 }
 
 export interface TestAndRollPlan {
-  /** Users per arm (symmetric priors; for unequal priors the larger... see nByArm). */
+  /** Users per arm with symmetric priors (closed form); null for unequal priors (see nByArm). */
   readonly nPerArm: number | null;
   /** Users in each arm, rounded to whole users. */
   readonly nByArm: readonly [number, number];
@@ -64,32 +67,27 @@ export function testAndRollSampleSize(population: number, priorSd: number, respo
   return Math.sqrt((population / 4) * ratio + ((3 / 4) * ratio) ** 2) - (3 / 4) * ratio;
 }
 
-function differencePrior(problem: TestAndRollProblem): EffectPrior {
+/** Var(P1 - P2): the prior-predictive variance of the difference of posterior means, v^2. */
+function decisionVariance(problem: TestAndRollProblem, n1: number, n2: number): number {
   const [first, second] = problem.arms;
-  return {
-    family: "assumed",
-    components: [
-      {
-        component: {
-          kind: "normal",
-          mean: first.priorMean - second.priorMean,
-          scale: Math.hypot(first.priorSd, second.priorSd),
-        },
-        weight: 1,
-      },
-    ],
-  };
+  const part = (arm: TestAndRollArm, n: number) =>
+    arm.priorSd ** 4 / (arm.priorSd * arm.priorSd + (arm.responseSd * arm.responseSd) / n);
+  return part(first, n1) + part(second, n2);
 }
 
-function estimateSe(problem: TestAndRollProblem, n1: number, n2: number): number {
-  const [first, second] = problem.arms;
-  return Math.sqrt((first.responseSd * first.responseSd) / n1 + (second.responseSd * second.responseSd) / n2);
+/** E[X^+] for X ~ N(mean, sd^2): mean Phi(mean/sd) + sd phi(mean/sd). */
+function positivePartMean(mean: number, sd: number): number {
+  if (sd === 0) return Math.max(mean, 0);
+  return mean * normalCdf(mean / sd) + sd * normalPdf(mean / sd);
 }
 
-/** Expected profit of testing n1 and n2 users and deploying the better-looking arm to the rest. */
+/** Expected profit of testing n1 and n2 users and deploying the arm with the higher posterior mean. */
 export function testAndRollProfit(problem: TestAndRollProblem, n1: number, n2: number): number {
   const [first, second] = problem.arms;
-  const gain = shippingPartial(differencePrior(problem), estimateSe(problem, n1, n2), 0).effectMoment;
+  const gain = positivePartMean(
+    first.priorMean - second.priorMean,
+    Math.sqrt(decisionVariance(problem, n1, n2)),
+  );
   return (
     n1 * first.priorMean + n2 * second.priorMean + (problem.population - n1 - n2) * (second.priorMean + gain)
   );
@@ -98,27 +96,34 @@ export function testAndRollProfit(problem: TestAndRollProblem, n1: number, n2: n
 /** N E[max(m1, m2)] = N (mu2 + E[D^+]). */
 export function perfectInformationProfit(problem: TestAndRollProblem): number {
   const [first, second] = problem.arms;
-  const mean = first.priorMean - second.priorMean;
-  const scale = Math.hypot(first.priorSd, second.priorSd);
-  const positivePart = mean * normalCdf(mean / scale) + scale * normalPdf(mean / scale);
-  return problem.population * (second.priorMean + positivePart);
+  return (
+    problem.population *
+    (second.priorMean +
+      positivePartMean(first.priorMean - second.priorMean, Math.hypot(first.priorSd, second.priorSd)))
+  );
 }
 
 /** P(deploying the arm with the lower mean) at n1, n2. */
 export function testAndRollErrorRate(problem: TestAndRollProblem, n1: number, n2: number): number {
-  const prior = differencePrior(problem);
-  const se = estimateSe(problem, n1, n2);
-  // Wrong when D <= 0 but Dhat > 0, or D > 0 but Dhat <= 0.
-  const deployFirstWrongly = shippingPartial(prior, se, 0, Number.NEGATIVE_INFINITY, 0).probability;
-  const firstBetter = shippingPartial(
-    prior,
-    se,
-    Number.NEGATIVE_INFINITY,
-    0,
-    Number.POSITIVE_INFINITY,
-  ).probability;
-  const deployFirstRightly = shippingPartial(prior, se, 0, 0, Number.POSITIVE_INFINITY).probability;
-  return deployFirstWrongly + (firstBetter - deployFirstRightly);
+  const [first, second] = problem.arms;
+  const decision = decisionVariance(problem, n1, n2);
+  const remainder = first.priorSd ** 2 + second.priorSd ** 2 - decision;
+  // Q = P1 - P2 plays the prior, D = Q + W the estimate: wrong when Q > 0 >= D or Q <= 0 < D.
+  const prior: EffectPrior = {
+    family: "assumed",
+    components: [
+      {
+        component: { kind: "normal", mean: first.priorMean - second.priorMean, scale: Math.sqrt(decision) },
+        weight: 1,
+      },
+    ],
+  };
+  const noise = Math.sqrt(Math.max(remainder, 0));
+  if (!(noise > 0)) return 0;
+  const deployFirst = shippingPartial(prior, noise, Number.NEGATIVE_INFINITY, 0).probability;
+  const deployFirstRightly = shippingPartial(prior, noise, 0, 0, Number.POSITIVE_INFINITY).probability;
+  const deploySecondWrongly = shippingPartial(prior, noise, 0, Number.NEGATIVE_INFINITY, 0).probability;
+  return deployFirst - deployFirstRightly + deploySecondWrongly;
 }
 
 function validate(problem: TestAndRollProblem): void {
@@ -169,7 +174,7 @@ export function planTestAndRoll(problem: TestAndRollProblem): TestAndRollPlan {
     regretShare: regret / perfect,
     errorRate: testAndRollErrorRate(problem, rounded[0], rounded[1]),
     assumptions: [
-      "Finite population: test on n1 + n2 users, deploy the arm with the higher observed mean to the remaining users.",
+      "Finite population: test on n1 + n2 users, deploy the arm with the higher posterior mean response to the remaining users (with symmetric priors: the higher observed mean).",
       "Each arm's mean response is normal a priori (priorMean, priorSd), independent across arms; a user's response is normal around it with sd responseSd.",
       "Profit is the sum of responses over the whole population, test phase included; no fixed cost of testing.",
       method === "closedForm"

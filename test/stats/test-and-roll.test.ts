@@ -1,3 +1,5 @@
+import { readFileSync } from "node:fs";
+import { fileURLToPath } from "node:url";
 import { describe, expect, it } from "vitest";
 import { createRandom } from "../../src/stats/random.ts";
 import {
@@ -9,6 +11,32 @@ import {
   testAndRollSampleSize,
 } from "../../src/stats/test-and-roll.ts";
 import { expectClose } from "./tolerance.ts";
+
+interface UnequalCase {
+  readonly label: string;
+  readonly population: number;
+  readonly arms: readonly [readonly [number, number, number], readonly [number, number, number]];
+  readonly optimumN1: number;
+  readonly optimumN2: number;
+  readonly optimumProfit: number;
+  readonly checks: readonly { n1: number; n2: number; profit: number; errorRate: number }[];
+}
+
+// scipy quadrature of E[max of posterior means] and a scipy Nelder-Mead optimum
+// (test/fixtures/test-and-roll/generate.py), independent of the closed forms used here.
+const unequalFixture = JSON.parse(
+  readFileSync(
+    fileURLToPath(new URL("../fixtures/test-and-roll/unequal-priors.json", import.meta.url)),
+    "utf8",
+  ),
+) as { cases: readonly UnequalCase[] };
+// scipy quad is asked for 1e-13 relative.
+const profitTolerance = { relative: 1e-11 };
+const errorRateTolerance = { relative: 1e-9, absolute: 1e-12 };
+// The profit is flat at its optimum (an error e in log n changes it by ~e^2): two optimisers
+// agree on n to ~1e-5 and on the profit there to rounding.
+const optimumNTolerance = { relative: 1e-4 };
+const optimumProfitTolerance = { relative: 1e-12 };
 
 // Feit & Berman (2019), "Test & Roll: Profit-Maximizing A/B Tests", Marketing Science 38:1038,
 // worked example of their website: N = 100,000, mu = 0.68, sigma = 0.03, s = sqrt(0.68 x 0.32).
@@ -115,6 +143,55 @@ describe("test & roll (Feit & Berman 2019)", () => {
     expect(numeric.expectedProfit).toBeGreaterThanOrEqual(best.profit - 1e-9);
     expect(Math.abs(numeric.nByArm[0] - best.n1)).toBeLessThanOrEqual(20);
     expect(Math.abs(numeric.nByArm[1] - best.n2)).toBeLessThanOrEqual(20);
+  });
+
+  describe("unequal priors: the posterior-mean rule of Feit & Berman (2019, eq. 18) against scipy", () => {
+    for (const row of unequalFixture.cases) {
+      const problem: TestAndRollProblem = {
+        population: row.population,
+        arms: [
+          { priorMean: row.arms[0][0], priorSd: row.arms[0][1], responseSd: row.arms[0][2] },
+          { priorMean: row.arms[1][0], priorSd: row.arms[1][1], responseSd: row.arms[1][2] },
+        ],
+      };
+      it(`${row.label}: profit and error rate at given sizes`, () => {
+        for (const check of row.checks) {
+          const inputs = { label: row.label, n1: check.n1, n2: check.n2 };
+          expectClose(
+            "profit",
+            inputs,
+            testAndRollProfit(problem, check.n1, check.n2),
+            check.profit,
+            profitTolerance,
+          );
+          expectClose(
+            "error rate",
+            inputs,
+            testAndRollErrorRate(problem, check.n1, check.n2),
+            check.errorRate,
+            errorRateTolerance,
+          );
+        }
+      });
+      it(`${row.label}: the numerical optimum`, () => {
+        const plan = planTestAndRoll(problem);
+        expect(plan.method).toBe("numeric");
+        expect(plan.nPerArm).toBeNull();
+        const inputs = { label: row.label };
+        expectClose("optimum n1", inputs, plan.nByArmExact[0], row.optimumN1, optimumNTolerance);
+        expectClose("optimum n2", inputs, plan.nByArmExact[1], row.optimumN2, optimumNTolerance);
+        expectClose(
+          "profit at the optimum",
+          inputs,
+          testAndRollProfit(problem, plan.nByArmExact[0], plan.nByArmExact[1]),
+          row.optimumProfit,
+          optimumProfitTolerance,
+        );
+        // Rounding to whole users costs at most a hair of the optimum.
+        expect(plan.expectedProfit).toBeLessThanOrEqual(row.optimumProfit * (1 + 1e-12));
+        expect(plan.expectedProfit).toBeGreaterThan(row.optimumProfit * (1 - 1e-9));
+      });
+    }
   });
 
   it("rejects invalid inputs with a named parameter", () => {
