@@ -121,6 +121,28 @@ describe("plumbline's pages in a real browser", () => {
     return { page, response, problems };
   }
 
+  /** Every control has a label, every button a name, every table column headers. */
+  async function expectAccessible(page: Page): Promise<void> {
+    const problems = await page.evaluate(() => {
+      const found: string[] = [];
+      // Array.from: the project's lib has DOM without DOM.Iterable.
+      for (const control of Array.from(
+        document.querySelectorAll<HTMLInputElement | HTMLSelectElement>("input, select"),
+      )) {
+        if ((control.labels?.length ?? 0) === 0 && !control.getAttribute("aria-label"))
+          found.push(`unlabelled ${control.outerHTML}`);
+      }
+      for (const button of Array.from(document.querySelectorAll("button")))
+        if (!button.textContent?.trim() && !button.getAttribute("aria-label"))
+          found.push(`nameless ${button.outerHTML}`);
+      for (const table of Array.from(document.querySelectorAll("table")))
+        if (table.querySelectorAll("thead th[scope=col]").length === 0)
+          found.push("table without column headers");
+      return found;
+    });
+    expect(problems).toEqual([]);
+  }
+
   async function svgCharts(page: Page, expected: number): Promise<void> {
     await page.waitForFunction(
       (count) => document.querySelectorAll("figure.chart svg").length >= count,
@@ -203,8 +225,11 @@ describe("plumbline's pages in a real browser", () => {
     await page.getByLabel("Decision", { exact: true }).selectOption("");
     await page.getByRole("button", { name: "Apply filters" }).click();
     await expect.poll(() => page.locator("table.data").textContent()).toContain("sample ratio mismatch");
-    await page.getByRole("button", { name: "Next page" }).click();
+    // By keyboard: the pager's button takes focus and Enter.
+    await page.getByRole("button", { name: "Next page" }).focus();
+    await page.keyboard.press("Enter");
     await expect.poll(() => page.locator("[data-total]").textContent()).toMatch(/^26–50 of/);
+    await expectAccessible(page);
     expect(problems).toEqual([]);
     await page.close();
   });
@@ -260,9 +285,23 @@ describe("plumbline's pages in a real browser", () => {
     );
     const spoke = await api<{ shipped: number }>(`/api/v1/review?family=${review.metricFamily}&team=Spoke`);
     expectShown("shipped (Spoke)", (await shown("shipped")) ?? "", spoke.shipped);
+    await expectAccessible(page);
     expect(problems).toEqual([]);
     await page.close();
   }, 60_000);
+
+  it("program review: the API's refusal of an unknown family is shown as it was given", async () => {
+    const { page, problems } = await openPage("/app/review?family=no-such-family");
+    const refusal = await fetch(`${server.url}/api/v1/review?family=no-such-family`, {
+      headers: { Authorization: `Bearer ${token}` },
+    });
+    const envelope = (await refusal.json()) as { error: { message: string } };
+    await expect.poll(() => page.getByRole("alert").textContent()).toContain(envelope.error.message);
+    // The 422 is expected; chromium also logs it as a failed resource.
+    expect(problems.filter((problem) => !problem.includes(String(refusal.status)))).toEqual([]);
+    expect(refusal.status).toBe(422);
+    await page.close();
+  });
 
   it("defaults: the recommended alpha and the fragile verdict match POST /calibrate; both curves draw", async () => {
     const { page, problems } = await openPage("/app/defaults");
@@ -295,6 +334,7 @@ describe("plumbline's pages in a real browser", () => {
     const notes = await page.locator(".notes").textContent();
     for (const caution of report.cautions) expect(notes).toContain(caution);
     await svgCharts(page, 2);
+    await expectAccessible(page);
     // An assumed prior that the API refuses: its message is shown as it was given.
     await page.getByLabel("Source", { exact: true }).selectOption("assumed");
     await page.getByLabel("Win rate", { exact: true }).fill("1.5");
@@ -335,6 +375,7 @@ describe("plumbline's pages in a real browser", () => {
     const notes = await page.locator(".notes").textContent();
     for (const caution of forecast.cautions) expect(notes).toContain(caution);
     await svgCharts(page, 2);
+    await expectAccessible(page);
     expect(problems).toEqual([]);
     await page.close();
   });

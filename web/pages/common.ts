@@ -334,25 +334,15 @@ export function figureList(figures: HTMLElement[]): HTMLElement {
   return el("dl", { class: "figures" }, figures);
 }
 
-/** Assumptions and cautions, always shown open beside the estimates they qualify. */
+/** Assumptions and cautions, always shown open beside the estimates they qualify; cautions first. */
 export function notesSection(assumptions: readonly string[], cautions: readonly string[]): HTMLElement {
   return el(
     "section",
     { class: "notes", "aria-labelledby": "notes-heading" },
-    el("h2", { id: "notes-heading" }, "Assumptions and cautions"),
+    el("h2", { id: "notes-heading" }, "Cautions and assumptions"),
     el(
       "div",
       { class: "notes-columns" },
-      el(
-        "div",
-        {},
-        el("h3", {}, "Assumptions"),
-        el(
-          "ul",
-          {},
-          assumptions.map((text) => el("li", {}, text)),
-        ),
-      ),
       el(
         "div",
         { class: "cautions" },
@@ -361,6 +351,16 @@ export function notesSection(assumptions: readonly string[], cautions: readonly 
           "ul",
           {},
           cautions.map((text) => el("li", {}, text)),
+        ),
+      ),
+      el(
+        "div",
+        {},
+        el("h3", {}, "Assumptions"),
+        el(
+          "ul",
+          {},
+          assumptions.map((text) => el("li", {}, text)),
         ),
       ),
     ),

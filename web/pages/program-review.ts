@@ -421,10 +421,12 @@ function downloads(query: URLSearchParams): HTMLElement {
 startPage(async (root) => {
   const parameters = new URLSearchParams(location.search);
   const index = await historyIndex();
+  const askedFamily = parameters.get("family");
+  // The family in the address is offered until the server lists the families it knows.
   const familySelect = selectControl(
     "family",
-    [["", "The family with most tests"]],
-    parameters.get("family") ?? "",
+    [["", "The family with most tests"], ...(askedFamily ? [[askedFamily, askedFamily] as const] : [])],
+    askedFamily ?? "",
   );
   const form = el(
     "form",
@@ -513,7 +515,7 @@ startPage(async (root) => {
           ),
           el(
             "aside",
-            { "aria-label": "Assumptions and cautions" },
+            { "aria-label": "Cautions and assumptions" },
             notesSection(review.assumptions.statements, review.cautions),
           ),
         );
