@@ -146,13 +146,7 @@ function solve(
   let gap = Number.POSITIVE_INFINITY;
   for (;;) {
     // Gradient over every column: g_k = -(sum_r a_r L_rk / u_r + c_k / x_k) / A + 1.
-    ratioSums.fill(0);
-    for (let r = 0; r < rowCount; r++) {
-      const scale = (rowWeights[r] as number) / (fitted[r] as number);
-      const offset = (rows[r] as number) * columns;
-      for (let k = 0; k < columns; k++)
-        ratioSums[k] = (ratioSums[k] as number) + scale * (values[offset + k] as number);
-    }
+    accumulateRatioSums(values, columns, rows, rowWeights, fitted, ratioSums);
     let total = 0;
     for (let k = 0; k < columns; k++) total += x[k] as number;
     gap = Number.NEGATIVE_INFINITY;
@@ -172,7 +166,8 @@ function solve(
     const entering: number[] = [];
     for (let k = 0; k < columns; k++) {
       if ((x[k] as number) > 0) working.push(k);
-      else if ((gradient[k] as number) < 0) entering.push(k);
+      // d_k = S (1 - g_k): a column already within a tenth of the tolerance needs no weight.
+      else if ((gradient[k] as number) < -0.1 * tolerance) entering.push(k);
     }
     entering.sort((a, b) => (gradient[a] as number) - (gradient[b] as number));
     const enteringCount = Math.min(entering.length, Math.max(maximumEntering, working.length));
@@ -180,21 +175,7 @@ function solve(
     working.sort((a, b) => a - b);
     const size = working.length;
     const workingIndex = Int32Array.from(working);
-    const hessian = new Float64Array(size * size);
-    const rowBuffer = new Float64Array(size);
-    for (let r = 0; r < rowCount; r++) {
-      const u = fitted[r] as number;
-      const scale = (rowWeights[r] as number) / (u * u);
-      const offset = (rows[r] as number) * columns;
-      for (let j = 0; j < size; j++) rowBuffer[j] = values[offset + (workingIndex[j] as number)] as number;
-      for (let j = 0; j < size; j++) {
-        const left = (rowBuffer[j] as number) * scale;
-        if (left === 0) continue;
-        const base = j * size;
-        for (let m = j; m < size; m++)
-          hessian[base + m] = (hessian[base + m] as number) + left * (rowBuffer[m] as number);
-      }
-    }
+    const hessian = accumulateHessian(values, columns, rows, rowWeights, fitted, workingIndex);
     let largestDiagonal = 0;
     for (let j = 0; j < size; j++) {
       const k = workingIndex[j] as number;
@@ -249,13 +230,7 @@ function solve(
       slope += (gradient[workingIndex[j] as number] as number) * (step[j] as number);
     }
     if (!(slope < 0)) break; // No descent left at machine precision.
-    for (let r = 0; r < rowCount; r++) {
-      const offset = (rows[r] as number) * columns;
-      let sum = 0;
-      for (let j = 0; j < size; j++)
-        sum += (values[offset + (workingIndex[j] as number)] as number) * (step[j] as number);
-      direction[r] = sum;
-    }
+    accumulateDirection(values, columns, rows, workingIndex, step, direction);
     let alpha = 1;
     let accepted = false;
     for (; alpha >= smallestStep; alpha *= stepReduction) {
@@ -292,6 +267,71 @@ function solve(
   for (let k = 0; k < columns; k++) total += x[k] as number;
   const weights = x.map((value) => value / total);
   return { weights, iterations, converged: gap <= tolerance, optimalityGap: gap };
+}
+
+/** ratioSums_k = sum_r a_r L_rk / u_r. */
+function accumulateRatioSums(
+  values: Float64Array,
+  columns: number,
+  rows: Int32Array,
+  rowWeights: Float64Array,
+  fitted: Float64Array,
+  ratioSums: Float64Array,
+): void {
+  ratioSums.fill(0);
+  for (let r = 0; r < rows.length; r++) {
+    const scale = (rowWeights[r] as number) / (fitted[r] as number);
+    const offset = (rows[r] as number) * columns;
+    for (let k = 0; k < columns; k++)
+      ratioSums[k] = (ratioSums[k] as number) + scale * (values[offset + k] as number);
+  }
+}
+
+/** Upper triangle of sum_r a_r / u_r^2 L_rC L_rC' over the working columns C (row-major). */
+function accumulateHessian(
+  values: Float64Array,
+  columns: number,
+  rows: Int32Array,
+  rowWeights: Float64Array,
+  fitted: Float64Array,
+  workingIndex: Int32Array,
+): Float64Array {
+  const size = workingIndex.length;
+  const hessian = new Float64Array(size * size);
+  const rowBuffer = new Float64Array(size);
+  for (let r = 0; r < rows.length; r++) {
+    const u = fitted[r] as number;
+    const scale = (rowWeights[r] as number) / (u * u);
+    const offset = (rows[r] as number) * columns;
+    for (let j = 0; j < size; j++) rowBuffer[j] = values[offset + (workingIndex[j] as number)] as number;
+    for (let j = 0; j < size; j++) {
+      const left = (rowBuffer[j] as number) * scale;
+      if (left === 0) continue;
+      const base = j * size;
+      for (let m = j; m < size; m++)
+        hessian[base + m] = (hessian[base + m] as number) + left * (rowBuffer[m] as number);
+    }
+  }
+  return hessian;
+}
+
+/** direction_r = sum_j L_r,C_j step_j. */
+function accumulateDirection(
+  values: Float64Array,
+  columns: number,
+  rows: Int32Array,
+  workingIndex: Int32Array,
+  step: Float64Array,
+  direction: Float64Array,
+): void {
+  const size = workingIndex.length;
+  for (let r = 0; r < rows.length; r++) {
+    const offset = (rows[r] as number) * columns;
+    let sum = 0;
+    for (let j = 0; j < size; j++)
+      sum += (values[offset + (workingIndex[j] as number)] as number) * (step[j] as number);
+    direction[r] = sum;
+  }
 }
 
 const poorlyExplainedRow = 1e-8;
