@@ -25,6 +25,7 @@ import { backlogRoutes } from "./routes/backlog.ts";
 import { calculatorsRoutes } from "./routes/calculators.ts";
 import { calibrateRoutes } from "./routes/calibrate.ts";
 import { experimentsRoutes } from "./routes/experiments.ts";
+import { fitRoutes } from "./routes/fit.ts";
 import { forecastRoutes } from "./routes/forecast.ts";
 import { importsRoutes } from "./routes/imports.ts";
 import { metricsRoutes } from "./routes/metrics.ts";
@@ -147,6 +148,7 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
   app.route("/api/v1", calibrateRoutes(deps));
   app.route("/api/v1", calculatorsRoutes(deps));
   app.route("/api/v1", reviewRoutes(deps));
+  app.route("/api/v1", fitRoutes(deps));
 
   app.doc("/api/openapi.json", documentConfig);
 
