@@ -152,6 +152,8 @@ export interface BacklogSimulation {
   advance(count: number): number;
   /** Summarises; throws if the simulation has not completed. */
   finish(): BacklogForecast;
+  /** The same summary in steps: each `next()` does one summary (one sort of R values) or one exact expectation. */
+  finishInSteps(): Generator<void, BacklogForecast, void>;
 }
 
 export const defaultForecastSimulations = 10_000;
@@ -162,6 +164,22 @@ const realWinSlot = 1;
 const falseWinSlot = 2;
 const claimedSlot = 3;
 const realizedSlot = 4;
+
+/**
+ * Most figures a forecast keeps (every simulated quarter's 5 figures per rule and per group:
+ * the whole backlog, each team, each family), so that quantiles are exact: 100 M doubles, 800 MB.
+ */
+export const maximumStoredForecastFigures = 100_000_000;
+
+/** Figures kept per simulated quarter: 5 per rule and group (whole backlog, teams, families). */
+export function storedFiguresPerQuarter(
+  tests: readonly { readonly team: string; readonly family: string }[],
+  ruleCount: number,
+): number {
+  const groups =
+    1 + new Set(tests.map((test) => test.team)).size + new Set(tests.map((test) => test.family)).size;
+  return ruleCount * groups * quantityCount;
+}
 
 export const forecastCautions: readonly string[] = [
   "This forecast does not replace a statistician's review; it is not for clinical or safety-critical decisions.",
@@ -230,6 +248,13 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
 
   const ruleCount = rules.length;
   const accumulatorLength = ruleCount * groupCount * quantityCount;
+  if (accumulatorLength * simulations > maximumStoredForecastFigures) {
+    throw new StatsInputError(
+      "simulations",
+      `at most ${Math.floor(maximumStoredForecastFigures / accumulatorLength)} for ${ruleCount} rule(s) over ${teamNames.length} team(s) and ${familyNames.length} metric family(ies): each simulated quarter keeps ${accumulatorLength} figures and a forecast holds at most ${maximumStoredForecastFigures}`,
+      simulations,
+    );
+  }
   const accumulator = new Float64Array(accumulatorLength);
   // draws[slot * simulations + r]; slot = (rule * groupCount + group) * quantityCount + quantity.
   const draws = new Float64Array(accumulatorLength * simulations);
@@ -260,7 +285,9 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
     return done;
   };
 
-  const finish = (): BacklogForecast => {
+  // Summarising sorts every kept series (O(R log R) each): it runs as a generator that yields
+  // after each summary, so that a caller on an event loop can interleave other work.
+  function* finishInSteps(): Generator<void, BacklogForecast, void> {
     if (done < simulations) throw new Error(`forecast simulation incomplete: ${done} of ${simulations}`);
     const seriesOf = (rule: number, group: number, quantity: number): Float64Array => {
       const start = ((rule * groupCount + group) * quantityCount + quantity) * simulations;
@@ -268,14 +295,20 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
     };
     const shippingExpectations: ShippingExpectations | null =
       input.expectations === undefined ? shippingExpectation : input.expectations;
-    const expectationsByRule = rules.map((_, rule) =>
-      tests.map((test, index) => testExpectation(shippingExpectations, test, thresholds[rule]![index]!)),
-    );
+    const expectationsByRule: TestExpectation[][] = [];
+    for (let rule = 0; rule < ruleCount; rule++) {
+      const perTest: TestExpectation[] = [];
+      for (const [index, test] of tests.entries()) {
+        perTest.push(testExpectation(shippingExpectations, test, thresholds[rule]![index]!));
+        if (shippingExpectations) yield;
+      }
+      expectationsByRule.push(perTest);
+    }
     const groupMembers = (group: number): number[] =>
       tests.flatMap((_, index) =>
         group === 0 || teamGroup[index] === group || familyGroup[index] === group ? [index] : [],
       );
-    const summarise = (rule: number, group: number): OutcomeSummaries => {
+    function* summarise(rule: number, group: number): Generator<void, OutcomeSummaries, void> {
       const members = groupMembers(group);
       const expectations = expectationsByRule[rule]!;
       const sumOf = (pick: (expectation: TestExpectation) => number | null): number | null => {
@@ -297,44 +330,51 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
       const realized = seriesOf(rule, group, realizedSlot);
       const gap = new Float64Array(simulations);
       for (let r = 0; r < simulations; r++) gap[r] = claimed[r]! - realized[r]!;
-      return {
-        shipped: withExpected(seriesOf(rule, group, shippedSlot), expectedShipped),
-        realWins: withExpected(seriesOf(rule, group, realWinSlot), expectedRealWins),
-        falseWins: withExpected(
-          seriesOf(rule, group, falseWinSlot),
-          expectedShipped === null || expectedRealWins === null ? null : expectedShipped - expectedRealWins,
-        ),
-        claimedLift: withExpected(claimed, claimedExpected),
-        realizedLift: withExpected(
-          realized,
-          sumOf((expectation) => expectation.expectedShippedEffect),
-        ),
-        liftGap: withExpected(
-          gap,
-          sumOf((expectation) => expectation.expectedShippedNoise),
-        ),
-      };
-    };
-    const ruleForecasts: RuleForecast[] = rules.map((rule, ruleIndex) => {
+      const shipped = withExpected(seriesOf(rule, group, shippedSlot), expectedShipped);
+      yield;
+      const realWins = withExpected(seriesOf(rule, group, realWinSlot), expectedRealWins);
+      yield;
+      const falseWins = withExpected(
+        seriesOf(rule, group, falseWinSlot),
+        expectedShipped === null || expectedRealWins === null ? null : expectedShipped - expectedRealWins,
+      );
+      yield;
+      const claimedLift = withExpected(claimed, claimedExpected);
+      yield;
+      const realizedLift = withExpected(realized, realizedExpected);
+      yield;
+      const liftGap = withExpected(gap, noiseExpected);
+      yield;
+      return { shipped, realWins, falseWins, claimedLift, realizedLift, liftGap };
+    }
+    const ruleForecasts: RuleForecast[] = [];
+    for (const [ruleIndex, rule] of rules.entries()) {
       const values = criticalValues[ruleIndex]!;
       const common = values.every((value) => value === values[0]) ? values[0]! : null;
-      return {
+      const overall = yield* summarise(ruleIndex, 0);
+      const byTeam: GroupForecast[] = [];
+      for (const [teamIndex, name] of teamNames.entries())
+        byTeam.push({
+          name,
+          tests: groupMembers(1 + teamIndex).length,
+          ...(yield* summarise(ruleIndex, 1 + teamIndex)),
+        });
+      const byFamily: GroupForecast[] = [];
+      for (const [familyIndex, name] of familyNames.entries())
+        byFamily.push({
+          name,
+          tests: groupMembers(1 + teamNames.length + familyIndex).length,
+          ...(yield* summarise(ruleIndex, 1 + teamNames.length + familyIndex)),
+        });
+      ruleForecasts.push({
         label: rule.label,
         criticalValue: common,
         alpha: common === null ? null : 2 * normalSurvival(common),
-        ...summarise(ruleIndex, 0),
+        ...overall,
         probabilityToReachTarget:
           target === null ? null : shareAtLeast(seriesOf(ruleIndex, 0, realizedSlot), target),
-        byTeam: teamNames.map((name, teamIndex) => ({
-          name,
-          tests: groupMembers(1 + teamIndex).length,
-          ...summarise(ruleIndex, 1 + teamIndex),
-        })),
-        byFamily: familyNames.map((name, familyIndex) => ({
-          name,
-          tests: groupMembers(1 + teamNames.length + familyIndex).length,
-          ...summarise(ruleIndex, 1 + teamNames.length + familyIndex),
-        })),
+        byTeam,
+        byFamily,
         tests: tests.map((test, index) => ({
           name: test.name,
           team: test.team,
@@ -346,10 +386,10 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
           probabilityOfShipping: expectationsByRule[ruleIndex]![index]!.probabilityOfShipping,
           expectedShippedEffect: expectationsByRule[ruleIndex]![index]!.expectedShippedEffect,
         })),
-      };
-    });
-    const differences: RuleDifference[] = rules.slice(1).map((rule, offset) => {
-      const ruleIndex = offset + 1;
+      });
+    }
+    const differences: RuleDifference[] = [];
+    for (let ruleIndex = 1; ruleIndex < ruleCount; ruleIndex++) {
       const difference = (quantity: number | "gap"): Float64Array => {
         const values = new Float64Array(simulations);
         const pick = (index: number, r: number): number =>
@@ -365,18 +405,33 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
         const first = ruleForecasts[0]![quantity].expected;
         return later === null || first === null ? null : later - first;
       };
-      return {
-        label: rule.label,
+      const summaries: Partial<Record<keyof OutcomeSummaries, OutcomeSummary>> = {};
+      for (const [quantity, series] of [
+        ["shipped", shippedSlot],
+        ["realWins", realWinSlot],
+        ["falseWins", falseWinSlot],
+        ["claimedLift", claimedSlot],
+        ["realizedLift", realizedSlot],
+        ["liftGap", "gap"],
+      ] as const) {
+        summaries[quantity] = withExpected(
+          quantity === "realizedLift" ? realizedDifference : difference(series),
+          expectedDifference(quantity),
+        );
+        yield;
+      }
+      differences.push({
+        label: rules[ruleIndex]!.label,
         baseline: rules[0]!.label,
-        shipped: withExpected(difference(shippedSlot), expectedDifference("shipped")),
-        realWins: withExpected(difference(realWinSlot), expectedDifference("realWins")),
-        falseWins: withExpected(difference(falseWinSlot), expectedDifference("falseWins")),
-        claimedLift: withExpected(difference(claimedSlot), expectedDifference("claimedLift")),
-        realizedLift: withExpected(realizedDifference, expectedDifference("realizedLift")),
-        liftGap: withExpected(difference("gap"), expectedDifference("liftGap")),
+        shipped: summaries.shipped!,
+        realWins: summaries.realWins!,
+        falseWins: summaries.falseWins!,
+        claimedLift: summaries.claimedLift!,
+        realizedLift: summaries.realizedLift!,
+        liftGap: summaries.liftGap!,
         probabilityRealizedAtLeastBaseline: shareAtLeast(realizedDifference, 0),
-      };
-    });
+      });
+    }
     return {
       seed: input.seed,
       simulations,
@@ -386,9 +441,17 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
       assumptions: forecastAssumptions(simulations, input.expectations !== null),
       cautions: forecastCautions,
     };
+  }
+
+  const finish = (): BacklogForecast => {
+    const steps = finishInSteps();
+    for (;;) {
+      const step = steps.next();
+      if (step.done) return step.value;
+    }
   };
 
-  return { simulations, completed: () => done, advance, finish };
+  return { simulations, completed: () => done, advance, finish, finishInSteps };
 }
 
 /** Runs the whole simulation at once (pure; see createBacklogSimulation for the stepwise form). */

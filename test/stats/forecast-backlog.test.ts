@@ -376,5 +376,9 @@ describe("forecastBacklog: common random numbers and seeds", () => {
     expect(() => forecastBacklog({ ...input, tests: [{ ...input.tests[0]!, standardError: 0 }] })).toThrow(
       /standardError/,
     );
+    // 2 rules x (1 + 2 teams + 2 families) x 5 figures = 50 kept per quarter; 100 M / 50 = 2 M.
+    expect(() => forecastBacklog({ ...input, simulations: 3_000_000 })).toThrow(
+      /simulations must be at most 2000000 for 2 rule\(s\) over 2 team\(s\) and 2 metric family/,
+    );
   });
 });

@@ -10,14 +10,17 @@ import { forecastReport } from "../../backlog/forecast-report.ts";
 import { parseRuleSpec, type RuleSpec } from "../../backlog/forecast-rules.ts";
 import { runForecastInSteps } from "../../backlog/run-forecast-in-steps.ts";
 import { ForecastSetupError, prepareWorkspaceForecast } from "../../backlog/workspace-forecast.ts";
-import { defaultForecastSimulations } from "../../stats/forecast-backlog.ts";
+import { defaultForecastSimulations, storedFiguresPerQuarter } from "../../stats/forecast-backlog.ts";
 import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
 
-/** Largest simulation the API runs in one request (portfolios x planned tests x rules). */
+/** Largest simulation the API runs in one request (portfolios x planned tests x rules), a few seconds. */
 export const maximumForecastDraws = 50_000_000;
+
+/** Most figures one API forecast keeps in memory (quarters x rules x groups x 5): 160 MB of doubles. */
+export const maximumForecastFigures = 20_000_000;
 
 const ForecastRequestSchema = z
   .object({
@@ -153,13 +156,23 @@ export function forecastRoutes({ db }: AppDeps): ApiRouter {
         if (error instanceof ForecastSetupError) throw new ApiError(422, "unprocessable", error.message);
         throw error;
       }
-      const draws = body.sims * prepared.input.tests.length * rules.length;
-      if (draws > maximumForecastDraws)
-        throw new ApiError(
-          422,
-          "unprocessable",
-          `sims x planned tests x rules is ${draws}; the API runs at most ${maximumForecastDraws} (use fewer sims, or the CLI)`,
-        );
+      const tests = prepared.input.tests;
+      const draws = body.sims * tests.length * rules.length;
+      const figuresPerQuarter = storedFiguresPerQuarter(tests, rules.length);
+      const largestSims = Math.max(
+        2,
+        Math.min(
+          Math.floor(maximumForecastDraws / (tests.length * rules.length)),
+          Math.floor(maximumForecastFigures / figuresPerQuarter),
+        ),
+      );
+      if (body.sims > largestSims) {
+        const message =
+          draws > maximumForecastDraws
+            ? `sims ${body.sims} x ${tests.length} planned tests x ${rules.length} rule(s) is ${draws} draws; the API runs at most ${maximumForecastDraws} in one request: ask for at most ${largestSims} sims, or run the larger forecast with the CLI (plumbline forecast --workspace ${JSON.stringify(auth.workspaceName)} --sims ${body.sims})`
+            : `sims ${body.sims} x ${figuresPerQuarter} figures kept per simulated quarter (5 per rule, team and family) is ${body.sims * figuresPerQuarter}; the API keeps at most ${maximumForecastFigures} in one request: ask for at most ${largestSims} sims, or run the larger forecast with the CLI (plumbline forecast --workspace ${JSON.stringify(auth.workspaceName)} --sims ${body.sims})`;
+        throw new ApiError(422, "unprocessable", message, [{ path: "sims", message }]);
+      }
       const forecast = await runForecastInSteps(prepared.input);
       const report = forecastReport(forecast, {
         workspace: auth.workspaceName,
