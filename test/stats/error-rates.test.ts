@@ -3,8 +3,9 @@ import { describe, expect, it } from "vitest";
 import { designAnalysis } from "../../src/stats/design-analysis.ts";
 import { designErrorRates } from "../../src/stats/error-rates.ts";
 import { StatsInputError } from "../../src/stats/errors.ts";
-import { operatingCurve } from "../../src/stats/operating-curve.ts";
+import { operatingCurve, operatingPointsAtAlphas } from "../../src/stats/operating-curve.ts";
 import { positivePredictiveValue } from "../../src/stats/positive-predictive-value.ts";
+import { readCalculatorFixture } from "./fixture.ts";
 import { expectClose } from "./tolerance.ts";
 
 // Published figures are printed to one decimal of a percent; half of that is the tolerance.
@@ -226,8 +227,59 @@ describe("operatingCurve", () => {
       absolute: 0.005,
     });
   });
+  it("matches R: points at conventional alphas and the area, normal and t references", () => {
+    // test/fixtures/calculators/generate.R: qt/pt (qnorm/pnorm) and integrate() of f(x) F(x + lambda).
+    interface CurveCase {
+      readonly lambda: number;
+      readonly df: number | null;
+      readonly area: number;
+      readonly points: readonly {
+        alpha: number;
+        threshold: number;
+        nullShipped: number;
+        winsShipped: number;
+      }[];
+    }
+    const fixture = readCalculatorFixture<CurveCase>("operating-curve");
+    // R's qt/pt agree with ours to ~1e-14 (distributions.test.ts); integrate() asks 1e-13.
+    const pointTolerance = { relative: 1e-12, absolute: 1e-15 };
+    const areaTolerance = { relative: 1e-11 };
+    for (const row of fixture.cases) {
+      const inputs = { effect: row.lambda, standardError: 1, ...(row.df === null ? {} : { df: row.df }) };
+      const points = operatingPointsAtAlphas(
+        inputs,
+        row.points.map((point) => point.alpha),
+      );
+      row.points.forEach((expected, index) => {
+        const actual = points[index]!;
+        expectClose(
+          "threshold",
+          { ...inputs, alpha: expected.alpha },
+          actual.threshold,
+          expected.threshold,
+          pointTolerance,
+        );
+        expectClose(
+          "nullShipped",
+          { ...inputs, alpha: expected.alpha },
+          actual.nullShipped,
+          expected.nullShipped,
+          pointTolerance,
+        );
+        expectClose(
+          "winsShipped",
+          { ...inputs, alpha: expected.alpha },
+          actual.winsShipped,
+          expected.winsShipped,
+          pointTolerance,
+        );
+      });
+      expectClose("area", inputs, operatingCurve(inputs).area, row.area, areaTolerance);
+    }
+  });
   it("rejects a non-positive effect or SE", () => {
     expect(() => operatingCurve({ effect: 0, standardError: 1 })).toThrow(StatsInputError);
+    expect(() => operatingCurve({ effect: 1, standardError: 1, df: 0 })).toThrow(/df must be/);
     expect(() => operatingCurve({ effect: 1, standardError: -1 })).toThrow(StatsInputError);
   });
 });
