@@ -73,6 +73,20 @@ describe("POST /api/v1/calculators/design", () => {
     expect(body.mode).toBe("power");
     expectClose("effect", {}, body.effect as number, 2.8016, { absolute: 1e-4 });
   });
+  it("carries the operating curve: a 2.8 SE win ships 80 % of the time at alpha 0.05 (Gelman & Carlin 2014)", async () => {
+    const { body } = await post("/api/v1/calculators/design", { effect: 2.8, standardError: 1 });
+    const curve = body.operatingCurve as {
+      area: number;
+      points: unknown[];
+      atConventionalAlphas: { alpha: number; nullShipped: number; winsShipped: number }[];
+    };
+    const conventional = curve.atConventionalAlphas.find((point) => point.alpha === 0.05)!;
+    expectClose("nullShipped", {}, conventional.nullShipped, 0.025, { relative: 1e-15 });
+    expectClose("winsShipped", {}, conventional.winsShipped, 0.8, { absolute: 0.005 });
+    // Hanley & McNeil (1982): binormal area Phi(2.8 / sqrt 2) = 0.9761.
+    expectClose("area", {}, curve.area, 0.9761, { absolute: 5e-5 });
+    expect(curve.points).toHaveLength(41);
+  });
   it("non-positive SE is 422", async () => {
     const { status } = await post("/api/v1/calculators/design", { effect: 1, standardError: 0 });
     expect(status).toBe(422);

@@ -101,6 +101,33 @@ describe("plumbline design", () => {
     expectClose("effect", {}, body.effect as number, 0.028016, { relative: 1e-4 });
     expectClose("exaggeration at 80 % power", {}, body.exaggeration as number, 1.12, { relative: 0.01 });
   });
+  it("the operating curve: at alpha 0.05 a null ships 2.5 % of the time and a 2.8 SE win 80 % (Gelman & Carlin 2014)", async () => {
+    const body = await runJson(["design", "--effect", "0.028", "--se", "0.01"]);
+    const curve = body.operatingCurve as {
+      points: { nullShipped: number; winsShipped: number }[];
+      area: number;
+      atConventionalAlphas: { alpha: number; nullShipped: number; winsShipped: number }[];
+    };
+    const conventional = curve.atConventionalAlphas.find((point) => point.alpha === 0.05)!;
+    expectClose("nullShipped at alpha 0.05", {}, conventional.nullShipped, 0.025, { relative: 1e-15 });
+    expectClose("winsShipped at alpha 0.05", {}, conventional.winsShipped, 0.8, { absolute: 0.005 });
+    expectClose(
+      "winsShipped = right-sign power",
+      {},
+      conventional.winsShipped,
+      body.powerRightSign as number,
+      {
+        relative: 1e-12,
+      },
+    );
+    // Hanley & McNeil (1982): the binormal ROC area Phi(lambda / sqrt 2) = Phi(1.98) = 0.9761.
+    expectClose("area", {}, curve.area, 0.9761, { absolute: 5e-5 });
+    expect(curve.points.at(0)).toMatchObject({ nullShipped: 0, winsShipped: 0 });
+    expect(curve.points.at(-1)).toMatchObject({ nullShipped: 1, winsShipped: 1 });
+    const text = await runText(["design", "--power", "0.8"]);
+    expect(text.out).toMatch(/Operating curve/);
+    expect(text.out).toMatch(/0\.05 +1\.960 +2\.5 % +80\.0 %/);
+  });
   it("non-positive SE and power <= alpha are refused", async () => {
     const zero = await runText(["design", "--effect", "1", "--se", "0"]);
     expect(zero.code).toBe(2);
@@ -150,6 +177,21 @@ describe("plumbline size", () => {
     const body = await runJson(["size", "--sd", "1", "--n", "20", "--power", "0.8689528016924959"]);
     const mde = body.minimumDetectableEffect as { absolute: number };
     expectClose("MDE (R power.t.test example read backwards)", {}, mde.absolute, 1, { relative: 1e-8 });
+  });
+  it("refusals name the flags to give", async () => {
+    const none = await runText(["size", "--alpha", "0.05"]);
+    expect(none.code).toBe(2);
+    expect(none.err).toContain("give --baseline RATE (conversion metric) or --sd SD (continuous metric)");
+    const noEffect = await runText(["size", "--baseline", "0.05"]);
+    expect(noEffect.code).toBe(2);
+    expect(noEffect.err).toContain("--mde, --mde-absolute or --delta");
+    const beyond = await runText(["size", "--baseline", "0.6", "--mde", "1"]);
+    expect(beyond.code).toBe(2);
+    expect(beyond.err).toContain(
+      "the treatment rate (--baseline plus the effect) must be strictly between 0 and 1",
+    );
+    const rho = await runText(["size", "--baseline", "0.05", "--mde", "0.1", "--variance-reduction", "1"]);
+    expect(rho.err).toContain("--variance-reduction must be strictly between -1 and 1");
   });
   it("text output and refusals", async () => {
     const text = await runText(["size", "--baseline", "0.05", "--mde", "0.1", "--daily-traffic", "5000"]);

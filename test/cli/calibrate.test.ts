@@ -129,6 +129,45 @@ describe("plumbline calibrate", () => {
     );
     expect(missing.stderr.join("\n")).toMatch(/--baseline/);
   });
+
+  it("names the flag and the condition of every refusal, in both modes", async () => {
+    const economics = ["--daily-traffic", "50000", "--period-days", "90", "--backlog", "60"];
+    const value = ["--value-per-lift", "2e7", "--launch-cost", "5000"];
+    const refusal = async (args: string[]) => {
+      const io = memoryIo();
+      expect(await main(["calibrate", ...args], io)).toBe(2);
+      return io.stderr.join("\n");
+    };
+    const assumed = ["--win-rate", "0.2", "--effect-scale", "0.01"];
+    expect(await refusal([...assumed, "--baseline", "1.5", ...economics, ...value])).toContain(
+      "--baseline must be strictly between 0 and 1; got 1.5",
+    );
+    expect(
+      await refusal([
+        "--win-rate",
+        "0.7",
+        "--effect-scale",
+        "0.01",
+        "--baseline",
+        "0.05",
+        ...economics,
+        ...value,
+      ]),
+    ).toContain("--win-rate + --loss-rate must be at most 1");
+    expect(
+      await refusal([...assumed, "--baseline", "0.05", ...economics, ...value, "--max-days", "1e-4"]),
+    ).toContain("--max-days x --daily-traffic / --arms");
+    expect(
+      await refusal([...assumed, "--baseline", "0.05", ...economics, ...value, "--prior-sd", "1"]),
+    ).toContain("--prior-sd not used with the defaults mode");
+    const roll = ["--population", "1e5", "--prior-mean", "0.68", "--response-sd", "0.47"];
+    expect(await refusal([...roll, "--prior-sd", "0.03,0"])).toContain(
+      "--prior-sd (second value) must be a positive finite number; got 0",
+    );
+    expect(await refusal([...roll, "--prior-sd", "0.03", "--baseline", "0.05"])).toContain(
+      "--baseline not used with --population",
+    );
+  });
 });
 
 describe("plumbline skew-check", () => {
@@ -158,5 +197,19 @@ describe("plumbline skew-check", () => {
     expect(result).toHaveProperty("falsePositiveRate");
     expect(result).toHaveProperty("power");
     expect(result.seed).toBe(3);
+  });
+  it("refusals name the flags", async () => {
+    const refusal = async (extra: string[]) => {
+      const io = memoryIo();
+      const args = ["skew-check", "--payer-share", "0.05", "--log-mean", "3", "--log-sd", "2", ...extra];
+      expect(await main(args, io)).toBe(2);
+      return io.stderr.join("\n");
+    };
+    expect(await refusal(["--n", "1.5"])).toContain("--n must be an integer of at least 2; got 1.5");
+    expect(await refusal(["--n", "100", "--sims", "5"])).toContain(
+      "--sims must be an integer of at least 10",
+    );
+    expect(await refusal(["--n", "100", "--lift=-2"])).toContain("--lift must be above -1");
+    expect(await refusal([])).toContain("--n is required");
   });
 });

@@ -14,6 +14,7 @@ import {
 import { defaultAlpha, designAnalysis, designAtPower } from "../../stats/design-analysis.ts";
 import { designErrorRates } from "../../stats/error-rates.ts";
 import { StatsInputError } from "../../stats/errors.ts";
+import { type DesignOperatingCurve, designOperatingCurve } from "../../stats/operating-curve.ts";
 import { type SizeRequest, sizeCalculator, sizeDocument } from "../../stats/size-calculator.ts";
 import { requiredRole } from "../auth.ts";
 import { errorResponses } from "../common-schemas.ts";
@@ -86,6 +87,28 @@ const DesignRequestSchema = z
   })
   .openapi("DesignRequest");
 
+const OperatingPointSchema = z.object({
+  threshold: z
+    .number()
+    .nullable()
+    .openapi({ description: "One-sided threshold on y / s (null: infinite, at the ends)" }),
+  alpha: probability.openapi({ description: "Two-sided level with the same upper threshold" }),
+  nullShipped: probability.openapi({ description: "Share of null tests shipped" }),
+  winsShipped: probability.openapi({ description: "Share of real wins of the given size shipped" }),
+});
+
+const OperatingCurveSchema = z
+  .object({
+    reference: z.enum(["normal", "studentT"]),
+    points: z.array(OperatingPointSchema).openapi({ description: "41 points from (0, 0) to (1, 1)" }),
+    area: z.number().openapi({ description: "Area under the curve: P(a win's estimate > a null's)" }),
+    atConventionalAlphas: z.array(OperatingPointSchema),
+  })
+  .openapi("OperatingCurve", {
+    description:
+      "Share of null tests shipped against share of real wins shipped as the threshold moves (statistics.md section 2)",
+  });
+
 const DesignResponseSchema = z
   .object({
     mode: z
@@ -103,6 +126,7 @@ const DesignResponseSchema = z
       .number()
       .nullable()
       .openapi({ description: "The effect (null in the inverse question without a standard error)" }),
+    operatingCurve: OperatingCurveSchema,
     ...notes,
   })
   .openapi("DesignAnswer");
@@ -186,6 +210,11 @@ function jsonBody<T extends z.ZodType>(schema: T) {
   return { required: true, content: { "application/json": { schema } } } as const;
 }
 
+/** The curve as a JSON body (mutable arrays, as the response schema types them). */
+function curveBody(curve: DesignOperatingCurve) {
+  return { ...curve, points: [...curve.points], atConventionalAlphas: [...curve.atConventionalAlphas] };
+}
+
 /** Drops undefined values so that optional inputs stay absent (exactOptionalPropertyTypes-safe). */
 function present<T extends object>(record: T): T {
   return Object.fromEntries(Object.entries(record).filter(([, value]) => value !== undefined)) as T;
@@ -262,6 +291,9 @@ export function calculatorsRoutes(_deps: AppDeps): ApiRouter {
               ...result,
               standardizedEffect: Math.abs(body.effect) / body.standardError,
               effect: body.effect,
+              operatingCurve: curveBody(
+                designOperatingCurve(Math.abs(body.effect) / body.standardError, body.df),
+              ),
               assumptions,
               cautions: [...calculatorCautions],
             },
@@ -279,6 +311,7 @@ export function calculatorsRoutes(_deps: AppDeps): ApiRouter {
             mode: "power" as const,
             ...result,
             effect: body.standardError === undefined ? null : result.standardizedEffect * body.standardError,
+            operatingCurve: curveBody(designOperatingCurve(result.standardizedEffect, body.df)),
             assumptions,
             cautions: [...calculatorCautions],
           },

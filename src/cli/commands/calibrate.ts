@@ -2,7 +2,6 @@
  * `plumbline calibrate`: the alpha, n per arm and run length that pay for this business
  * (statistics.md section 7), or, with --population, a test-and-roll plan (Feit & Berman 2019).
  */
-import { parseArgs } from "node:util";
 import {
   type CalibrationPriorRequest,
   CalibrationSetupError,
@@ -11,11 +10,18 @@ import {
 import { openDatabaseFromEnv } from "../../config.ts";
 import type { DatabaseHandle } from "../../db/client.ts";
 import type { CalibratedDesign } from "../../stats/calibrate-defaults.ts";
-import { StatsInputError } from "../../stats/errors.ts";
 import type { FitFamily } from "../../stats/fit-effect-prior.ts";
 import { planTestAndRoll, type TestAndRollArm } from "../../stats/test-and-roll.ts";
 import type { MetricScale } from "../../stats/test-value.ts";
 import { requireWorkspaceByName, WorkspaceError } from "../../workspaces.ts";
+import {
+  type CalculatorCommand,
+  FlagError,
+  type Flags,
+  notesBlock,
+  numberFlag,
+  runCalculatorCommand,
+} from "../calculator-flags.ts";
 import type { CommandIo } from "../io.ts";
 
 export const summary = "recommend the alpha, n per arm and run length that maximise the value of testing";
@@ -56,27 +62,11 @@ Test-and-roll mode (test on a finite population, roll the winner out to the rest
 
   --json              print one JSON document`;
 
-class FlagError extends Error {}
-
-function numberFlag(name: string, value: string | undefined): number | undefined {
-  if (value === undefined) return undefined;
-  const parsed = Number(value.trim());
-  if (value.trim() === "" || !Number.isFinite(parsed)) {
-    throw new FlagError(`--${name} must be a number; got ${JSON.stringify(value)}`);
-  }
-  return parsed;
-}
-
-function requiredNumber(name: string, value: string | undefined): number {
-  const parsed = numberFlag(name, value);
-  if (parsed === undefined) throw new FlagError(`--${name} is required`);
-  return parsed;
-}
-
 /** One value or two comma-separated values (one per arm). */
-function pairFlag(name: string, value: string | undefined): [number, number] {
+function pairFlag(flags: Flags, name: string): [number, number] {
+  const value = flags.text(name);
   if (value === undefined) throw new FlagError(`--${name} is required`);
-  const parts = value.split(",").map((part) => requiredNumber(name, part));
+  const parts = value.split(",").map((part) => numberFlag(name, part) as number);
   if (parts.length === 1) return [parts[0]!, parts[0]!];
   if (parts.length === 2) return [parts[0]!, parts[1]!];
   throw new FlagError(
@@ -109,87 +99,89 @@ const options = {
   "prior-sd": { type: "string" },
   "response-sd": { type: "string" },
   json: { type: "boolean" },
-  help: { type: "boolean", short: "h" },
 } as const;
 
-type Values = Record<string, string | boolean | undefined>;
+const testAndRollFlags = ["population", "prior-mean", "prior-sd", "response-sd"];
+const defaultsFlags = Object.keys(options).filter(
+  (flag) => flag !== "json" && !testAndRollFlags.includes(flag),
+);
+
+const armFlags = (index: 0 | 1) => {
+  const which = index === 0 ? "first" : "second";
+  return {
+    [`arms[${index}].priorMean`]: `--prior-mean (${which} value)`,
+    [`arms[${index}].priorSd`]: `--prior-sd (${which} value)`,
+    [`arms[${index}].responseSd`]: `--response-sd (${which} value)`,
+  };
+};
+
+const command: CalculatorCommand = {
+  name: "calibrate",
+  help,
+  options,
+  flagNames: {
+    baselineRate: "--baseline",
+    "winRate + lossRate": "--win-rate + --loss-rate",
+    "maxDays * dailyTraffic / arms":
+      "--max-days x --daily-traffic / --arms (the longest run's users per arm)",
+    ...armFlags(0),
+    ...armFlags(1),
+  },
+  userErrors: [CalibrationSetupError, WorkspaceError],
+};
 
 export async function run(args: string[], io: CommandIo): Promise<number> {
-  let values: Values;
-  try {
-    ({ values } = parseArgs({ args, strict: true, allowPositionals: false, options }));
-  } catch (error) {
-    io.err(`plumbline calibrate: ${(error as Error).message}\n\n${help}`);
-    return 2;
-  }
-  if (values.help) {
-    io.out(help);
-    return 0;
-  }
-  const text = (name: string) => values[name] as string | undefined;
-  let handle: DatabaseHandle | undefined;
-  try {
-    if (text("population") !== undefined) return testAndRoll(values, io);
-    const metric = metricFrom(values);
-    const prior = priorFrom(values);
+  return runCalculatorCommand(command, args, io, async (flags) => {
+    if (flags.has("population")) {
+      refuseFlags(flags, defaultsFlags, "--population (test-and-roll mode)");
+      testAndRoll(flags, io);
+      return;
+    }
+    refuseFlags(
+      flags,
+      testAndRollFlags.filter((flag) => flag !== "population"),
+      "the defaults mode (test-and-roll needs --population)",
+    );
     const request = {
-      prior,
-      metric,
-      dailyTraffic: requiredNumber("daily-traffic", text("daily-traffic")),
-      periodDays: requiredNumber("period-days", text("period-days")),
-      backlog: requiredNumber("backlog", text("backlog")),
-      valuePerLift: requiredNumber("value-per-lift", text("value-per-lift")),
-      launchCost: requiredNumber("launch-cost", text("launch-cost")),
-      ...optionalNumber("lossPenalty", "loss-penalty", text("loss-penalty")),
-      ...optionalNumber("arms", "arms", text("arms")),
-      ...optionalNumber("mde", "mde", text("mde")),
-      ...optionalNumber("maxDays", "max-days", text("max-days")),
+      prior: priorFrom(flags),
+      metric: metricFrom(flags),
+      dailyTraffic: flags.requiredNumber("daily-traffic"),
+      periodDays: flags.requiredNumber("period-days"),
+      backlog: flags.requiredNumber("backlog"),
+      valuePerLift: flags.requiredNumber("value-per-lift"),
+      launchCost: flags.requiredNumber("launch-cost"),
+      ...flags.optionalNumber("lossPenalty", "loss-penalty"),
+      ...flags.optionalNumber("arms", "arms"),
+      ...flags.optionalNumber("mde", "mde"),
+      ...flags.optionalNumber("maxDays", "max-days"),
     };
-    let workspaceId: number | null = null;
-    const workspaceName = text("workspace");
-    if (workspaceName !== undefined) {
-      handle = await openDatabaseFromEnv();
-      workspaceId = (await requireWorkspaceByName(handle.db, workspaceName)).id;
+    let handle: DatabaseHandle | undefined;
+    try {
+      let workspaceId: number | null = null;
+      const workspaceName = flags.text("workspace");
+      if (workspaceName !== undefined) {
+        handle = await openDatabaseFromEnv();
+        workspaceId = (await requireWorkspaceByName(handle.db, workspaceName)).id;
+      }
+      const report = await calibrateWorkspace(handle?.db ?? null, workspaceId, request);
+      io.out(flags.has("json") ? JSON.stringify(report) : formatReport(report));
+    } finally {
+      handle?.close();
     }
-    const report = await calibrateWorkspace(handle?.db ?? null, workspaceId, request);
-    if (values.json) {
-      io.out(JSON.stringify(report));
-      return 0;
-    }
-    io.out(formatReport(report));
-    return 0;
-  } catch (error) {
-    if (error instanceof FlagError) {
-      io.err(`plumbline calibrate: ${error.message}\n\n${help}`);
-      return 2;
-    }
-    if (
-      error instanceof StatsInputError ||
-      error instanceof CalibrationSetupError ||
-      error instanceof WorkspaceError
-    ) {
-      io.err(`plumbline calibrate: ${error.message}`);
-      return 2;
-    }
-    throw error;
-  } finally {
-    handle?.close();
+  });
+}
+
+function refuseFlags(flags: Flags, names: readonly string[], mode: string): void {
+  const given = names.filter((name) => flags.has(name));
+  if (given.length > 0) {
+    throw new FlagError(`${given.map((name) => `--${name}`).join(", ")} not used with ${mode}`);
   }
 }
 
-function optionalNumber<K extends string>(
-  key: K,
-  flag: string,
-  value: string | undefined,
-): Partial<Record<K, number>> {
-  const parsed = numberFlag(flag, value);
-  return parsed === undefined ? {} : ({ [key]: parsed } as Record<K, number>);
-}
-
-function metricFrom(values: Values): MetricScale {
-  const baseline = numberFlag("baseline", values.baseline as string | undefined);
-  const mean = numberFlag("mean", values.mean as string | undefined);
-  const sd = numberFlag("sd", values.sd as string | undefined);
+function metricFrom(flags: Flags): MetricScale {
+  const baseline = flags.number("baseline");
+  const mean = flags.number("mean");
+  const sd = flags.number("sd");
   if (baseline !== undefined) {
     if (mean !== undefined || sd !== undefined)
       throw new FlagError("give --baseline or --mean with --sd, not both");
@@ -202,59 +194,53 @@ function metricFrom(values: Values): MetricScale {
 
 const fitFamilies = ["symmetric", "skewed", "grid", "auto"] as const;
 
-function priorFrom(values: Values): CalibrationPriorRequest {
-  const winRate = numberFlag("win-rate", values["win-rate"] as string | undefined);
-  const family = values.family as string | undefined;
+function priorFrom(flags: Flags): CalibrationPriorRequest {
+  const winRate = flags.number("win-rate");
+  const family = flags.text("family");
   if (winRate !== undefined) {
     if (family !== undefined)
       throw new FlagError("give --family (fitted prior) or --win-rate (assumed prior), not both");
-    const shape = values["prior-shape"] as string | undefined;
-    if (shape !== undefined && shape !== "normal" && shape !== "fat") {
-      throw new FlagError(`--prior-shape must be normal or fat; got ${JSON.stringify(shape)}`);
-    }
-    const lossRate = numberFlag("loss-rate", values["loss-rate"] as string | undefined);
+    if (flags.has("fit-family"))
+      throw new FlagError("--fit-family is for a fitted prior (--family), not --win-rate");
+    const shape = flags.choice("prior-shape", ["normal", "fat"] as const);
     return {
       source: "assumed",
       winRate,
-      effectScale: requiredNumber("effect-scale", values["effect-scale"] as string | undefined),
-      ...(lossRate === undefined ? {} : { lossRate }),
+      effectScale: flags.requiredNumber("effect-scale"),
+      ...flags.optionalNumber("lossRate", "loss-rate"),
       ...(shape === undefined ? {} : { shape }),
     };
   }
   if (family === undefined) {
     throw new FlagError("the prior needs --workspace NAME --family F, or --win-rate P --effect-scale S");
   }
-  if (values.workspace === undefined) throw new FlagError("--family needs --workspace NAME");
-  const fitFamily = values["fit-family"] as string | undefined;
-  if (fitFamily !== undefined && !(fitFamilies as readonly string[]).includes(fitFamily)) {
+  if (!flags.has("workspace")) throw new FlagError("--family needs --workspace NAME");
+  const assumedOnly = ["loss-rate", "effect-scale", "prior-shape"].filter((name) => flags.has(name));
+  if (assumedOnly.length > 0) {
     throw new FlagError(
-      `--fit-family must be one of ${fitFamilies.join(", ")}; got ${JSON.stringify(fitFamily)}`,
+      `${assumedOnly.map((name) => `--${name}`).join(", ")} ${assumedOnly.length === 1 ? "needs" : "need"} --win-rate (an assumed prior)`,
     );
   }
-  return {
-    source: "workspace",
-    family,
-    ...(fitFamily === undefined ? {} : { fitFamily: fitFamily as FitFamily | "auto" }),
-  };
+  const fitFamily = flags.choice<FitFamily | "auto">("fit-family", fitFamilies);
+  return { source: "workspace", family, ...(fitFamily === undefined ? {} : { fitFamily }) };
 }
 
-function testAndRoll(values: Values, io: CommandIo): number {
-  const text = (name: string) => values[name] as string | undefined;
-  const means = pairFlag("prior-mean", text("prior-mean"));
-  const sds = pairFlag("prior-sd", text("prior-sd"));
-  const responses = pairFlag("response-sd", text("response-sd"));
+function testAndRoll(flags: Flags, io: CommandIo): void {
+  const means = pairFlag(flags, "prior-mean");
+  const sds = pairFlag(flags, "prior-sd");
+  const responses = pairFlag(flags, "response-sd");
   const arm = (index: 0 | 1): TestAndRollArm => ({
     priorMean: means[index],
     priorSd: sds[index],
     responseSd: responses[index],
   });
   const plan = planTestAndRoll({
-    population: requiredNumber("population", text("population")),
+    population: flags.requiredNumber("population"),
     arms: [arm(0), arm(1)],
   });
-  if (values.json) {
+  if (flags.has("json")) {
     io.out(JSON.stringify(plan));
-    return 0;
+    return;
   }
   const lines = [
     "Test and roll: test on a part of the population, deploy the better arm to the rest",
@@ -265,15 +251,9 @@ function testAndRoll(values: Values, io: CommandIo): number {
     `  with perfect information ${plan.perfectInformationProfit.toFixed(2)}`,
     `  regret                  ${plan.regret.toFixed(2)} (${(plan.regretShare * 100).toFixed(2)} %)`,
     `  error rate              ${(plan.errorRate * 100).toFixed(1)} % (deploys the worse arm)`,
-    "",
-    "Assumptions:",
-    ...plan.assumptions.map((line) => `  - ${line}`),
-    "",
-    "Cautions:",
-    ...plan.cautions.map((line) => `  - ${line}`),
+    ...notesBlock(plan.assumptions, plan.cautions),
   ];
   io.out(lines.join("\n"));
-  return 0;
 }
 
 function formatNumber(value: number, digits = 0): string {
@@ -335,12 +315,7 @@ function formatReport(report: Awaited<ReturnType<typeof calibrateWorkspace>>): s
         `  ${scenario.label.padEnd(20)} alpha ${scenario.recommended.alpha.toFixed(3)}, n/arm ${formatNumber(scenario.recommended.nPerArm)}, ` +
         `value ${formatNumber(scenario.recommended.expectedValue)}; the base recommendation would forgo ${formatNumber(scenario.shareOfValueForgone * 100, 1)} %`,
     ),
-    "",
-    "Assumptions:",
-    ...report.assumptions.map((line) => `  - ${line}`),
-    "",
-    "Cautions:",
-    ...report.cautions.map((line) => `  - ${line}`),
+    ...notesBlock(report.assumptions, report.cautions),
   ];
   return lines.join("\n");
 }

@@ -4,21 +4,21 @@
  * The inverse questions: `--power B [--se S]` gives the true effect with that power (in units of
  * the SE, and absolute when --se is given) and the Type S and exaggeration to expect at it.
  */
-import { parseArgs } from "node:util";
 import { calculatorCautions, designAssumptions } from "../../stats/calculator-notes.ts";
 import { defaultAlpha, designAnalysis, designAtPower } from "../../stats/design-analysis.ts";
+import { type DesignOperatingCurve, designOperatingCurve } from "../../stats/operating-curve.ts";
 import {
+  type CalculatorCommand,
   FlagError,
+  type Flags,
   notesBlock,
-  numberFlag,
   percent,
-  requiredNumberFlag,
-  runCalculator,
+  runCalculatorCommand,
 } from "../calculator-flags.ts";
 import type { CommandIo } from "../io.ts";
 
 export const summary =
-  "power, Type S and exaggeration of one test; or the effect and exaggeration at a given power";
+  "power, Type S, exaggeration and operating curve of one test; or the effect and exaggeration at a given power";
 
 const help = `Usage: plumbline design --effect D --se S [--alpha A] [--df DF] [--json]
        plumbline design --power B [--se S] [--alpha A] [--df DF] [--json]
@@ -29,86 +29,65 @@ const help = `Usage: plumbline design --effect D --se S [--alpha A] [--df DF] [-
   --power B    instead of --effect: the effect with this power, and what to expect at it
   --alpha A    two-sided significance level (default 0.05)
   --df DF      Student t reference with DF degrees of freedom (> 1; default: normal)
-  --json       print one JSON document`;
+  --json       print one JSON document (with the operating curve: share of null tests
+               shipped against share of real wins shipped as the threshold moves)`;
 
 const round = (value: number, digits = 4) => Number(value.toPrecision(digits));
 
-export async function run(args: string[], io: CommandIo): Promise<number> {
-  return runCalculator("design", help, io, () => {
-    let values: Record<string, string | boolean | undefined>;
-    try {
-      ({ values } = parseArgs({
-        args,
-        strict: true,
-        allowPositionals: false,
-        options: {
-          effect: { type: "string" },
-          se: { type: "string" },
-          power: { type: "string" },
-          alpha: { type: "string" },
-          df: { type: "string" },
-          json: { type: "boolean" },
-          help: { type: "boolean", short: "h" },
-        },
-      }));
-    } catch (error) {
-      throw new FlagError((error as Error).message);
-    }
-    if (values.help) {
-      io.out(help);
-      return;
-    }
-    const text = (name: string) => values[name] as string | undefined;
-    const alpha = numberFlag("alpha", text("alpha")) ?? defaultAlpha;
-    const df = numberFlag("df", text("df"));
-    const assumptions = designAssumptions({ alpha, df });
-    const reference = df === undefined ? "normal" : `Student t, ${df} df`;
-    const effect = numberFlag("effect", text("effect"));
-    const targetPower = numberFlag("power", text("power"));
-    if (effect !== undefined && targetPower !== undefined)
-      throw new FlagError("give --effect or --power, not both");
-    if (effect === undefined && targetPower === undefined)
-      throw new FlagError("--effect (with --se) or --power is required");
+const command: CalculatorCommand = {
+  name: "design",
+  help,
+  options: {
+    effect: { type: "string" },
+    se: { type: "string" },
+    power: { type: "string" },
+    alpha: { type: "string" },
+    df: { type: "string" },
+    json: { type: "boolean" },
+  },
+  flagNames: { standardError: "--se" },
+};
 
-    if (effect !== undefined) {
-      const standardError = requiredNumberFlag("se", text("se"));
-      const result = designAnalysis({ effect, standardError, alpha, ...(df === undefined ? {} : { df }) });
-      if (values.json) {
-        io.out(
-          JSON.stringify({
-            ...result,
-            inputs: { effect, standardError, alpha, df: df ?? null },
-            assumptions,
-            cautions: calculatorCautions,
-          }),
-        );
-        return;
-      }
-      io.out(
-        [
-          `Design: true effect ${effect}, standard error ${standardError} (${round(Math.abs(effect) / standardError)} SE), alpha ${alpha} two-sided, ${reference} reference`,
-          "",
-          `Power:                       ${percent(result.power)}`,
-          `Type S (wrong sign | signif.): ${percent(result.typeS)}`,
-          `Exaggeration ratio:          ${round(result.exaggeration)}x (significant estimates overstate |effect| by this factor on average)`,
-          ...notesBlock(assumptions, calculatorCautions),
-        ].join("\n"),
-      );
-      return;
-    }
-    const power = targetPower as number;
-    const standardError = numberFlag("se", text("se"));
-    if (standardError !== undefined && !(standardError > 0)) {
-      throw new FlagError(`--se must be a positive number; got ${standardError}`);
-    }
-    const result = designAtPower({ power, alpha, ...(df === undefined ? {} : { df }) });
-    const effectAtPower = standardError === undefined ? null : result.standardizedEffect * standardError;
-    if (values.json) {
+function curveLines(curve: DesignOperatingCurve): string[] {
+  return [
+    "",
+    "Operating curve (ship a win when y / s exceeds the threshold):",
+    "  alpha   threshold   nulls shipped   real wins shipped",
+    ...curve.atConventionalAlphas.map(
+      (point) =>
+        `  ${String(point.alpha).padEnd(6)}  ${point.threshold.toFixed(3).padStart(9)}   ${percent(point.nullShipped).padStart(13)}   ${percent(point.winsShipped).padStart(17)}`,
+    ),
+    `  area under the curve: ${curve.area.toFixed(4)}`,
+  ];
+}
+
+export async function run(args: string[], io: CommandIo): Promise<number> {
+  return runCalculatorCommand(command, args, io, (flags) => design(flags, io));
+}
+
+function design(flags: Flags, io: CommandIo): void {
+  const alpha = flags.numberOr("alpha", defaultAlpha);
+  const df = flags.number("df");
+  const dfOption = df === undefined ? {} : { df };
+  const assumptions = designAssumptions({ alpha, df });
+  const reference = df === undefined ? "normal" : `Student t, ${df} df`;
+  const effect = flags.number("effect");
+  const targetPower = flags.number("power");
+  if (effect !== undefined && targetPower !== undefined)
+    throw new FlagError("give --effect or --power, not both");
+  if (effect === undefined && targetPower === undefined)
+    throw new FlagError("--effect (with --se) or --power is required");
+
+  if (effect !== undefined) {
+    const standardError = flags.requiredNumber("se");
+    const result = designAnalysis({ effect, standardError, alpha, ...dfOption });
+    const curve = designOperatingCurve(Math.abs(effect) / standardError, df);
+    if (flags.has("json")) {
       io.out(
         JSON.stringify({
           ...result,
-          effect: effectAtPower,
-          inputs: { power, standardError: standardError ?? null, alpha, df: df ?? null },
+          operatingCurve: curve,
+          inputs: { effect, standardError, alpha, df: df ?? null },
           assumptions,
           cautions: calculatorCautions,
         }),
@@ -117,13 +96,47 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
     }
     io.out(
       [
-        `Design at power ${power}, alpha ${alpha} two-sided, ${reference} reference`,
+        `Design: true effect ${effect}, standard error ${standardError} (${round(Math.abs(effect) / standardError)} SE), alpha ${alpha} two-sided, ${reference} reference`,
         "",
-        `True effect with this power: ${round(result.standardizedEffect)} standard errors${effectAtPower === null ? "" : ` = ${round(effectAtPower)}`}`,
-        `Type S at that effect:        ${percent(result.typeS)}`,
-        `Exaggeration to expect:       ${round(result.exaggeration)}x`,
+        `Power:                       ${percent(result.power)}`,
+        `Type S (wrong sign | signif.): ${percent(result.typeS)}`,
+        `Exaggeration ratio:          ${round(result.exaggeration)}x (significant estimates overstate |effect| by this factor on average)`,
+        ...curveLines(curve),
         ...notesBlock(assumptions, calculatorCautions),
       ].join("\n"),
     );
-  });
+    return;
+  }
+  const power = targetPower as number;
+  const standardError = flags.number("se");
+  if (standardError !== undefined && !(standardError > 0)) {
+    throw new FlagError(`--se must be a positive number; got ${standardError}`);
+  }
+  const result = designAtPower({ power, alpha, ...dfOption });
+  const effectAtPower = standardError === undefined ? null : result.standardizedEffect * standardError;
+  const curve = designOperatingCurve(result.standardizedEffect, df);
+  if (flags.has("json")) {
+    io.out(
+      JSON.stringify({
+        ...result,
+        effect: effectAtPower,
+        operatingCurve: curve,
+        inputs: { power, standardError: standardError ?? null, alpha, df: df ?? null },
+        assumptions,
+        cautions: calculatorCautions,
+      }),
+    );
+    return;
+  }
+  io.out(
+    [
+      `Design at power ${power}, alpha ${alpha} two-sided, ${reference} reference`,
+      "",
+      `True effect with this power: ${round(result.standardizedEffect)} standard errors${effectAtPower === null ? "" : ` = ${round(effectAtPower)}`}`,
+      `Type S at that effect:        ${percent(result.typeS)}`,
+      `Exaggeration to expect:       ${round(result.exaggeration)}x`,
+      ...curveLines(curve),
+      ...notesBlock(assumptions, calculatorCautions),
+    ].join("\n"),
+  );
 }

@@ -3,17 +3,9 @@
  * design (statistics.md section 2): false positive risk of a win, the error given any rejection,
  * the error given no rejection, and the expected confusion matrix for N tests.
  */
-import { parseArgs } from "node:util";
 import { calculatorCautions, riskAssumptions } from "../../stats/calculator-notes.ts";
 import { designErrorRates } from "../../stats/error-rates.ts";
-import {
-  FlagError,
-  notesBlock,
-  numberFlag,
-  percent,
-  requiredNumberFlag,
-  runCalculator,
-} from "../calculator-flags.ts";
+import { type CalculatorCommand, notesBlock, percent, runCalculatorCommand } from "../calculator-flags.ts";
 import type { CommandIo } from "../io.ts";
 
 export const summary =
@@ -27,41 +19,29 @@ const help = `Usage: plumbline risk --win-rate P --alpha A --power B [--tests N]
   --tests N      number of tests for the expected confusion matrix (default 1000)
   --json         print one JSON document`;
 
+const command: CalculatorCommand = {
+  name: "risk",
+  help,
+  options: {
+    "win-rate": { type: "string" },
+    alpha: { type: "string" },
+    power: { type: "string" },
+    tests: { type: "string" },
+    json: { type: "boolean" },
+  },
+};
+
 export async function run(args: string[], io: CommandIo): Promise<number> {
-  return runCalculator("risk", help, io, () => {
-    let values: Record<string, string | boolean | undefined>;
-    try {
-      ({ values } = parseArgs({
-        args,
-        strict: true,
-        allowPositionals: false,
-        options: {
-          "win-rate": { type: "string" },
-          alpha: { type: "string" },
-          power: { type: "string" },
-          tests: { type: "string" },
-          json: { type: "boolean" },
-          help: { type: "boolean", short: "h" },
-        },
-      }));
-    } catch (error) {
-      throw new FlagError((error as Error).message);
-    }
-    if (values.help) {
-      io.out(help);
-      return;
-    }
-    const text = (name: string) => values[name] as string | undefined;
-    const tests = numberFlag("tests", text("tests"));
+  return runCalculatorCommand(command, args, io, (flags) => {
     const input = {
-      winRate: requiredNumberFlag("win-rate", text("win-rate")),
-      alpha: requiredNumberFlag("alpha", text("alpha")),
-      power: requiredNumberFlag("power", text("power")),
-      ...(tests === undefined ? {} : { tests }),
+      winRate: flags.requiredNumber("win-rate"),
+      alpha: flags.requiredNumber("alpha"),
+      power: flags.requiredNumber("power"),
+      ...flags.optionalNumber("tests", "tests"),
     };
     const rates = designErrorRates(input);
     const assumptions = riskAssumptions(input);
-    if (values.json) {
+    if (flags.has("json")) {
       io.out(JSON.stringify({ ...rates, inputs: input, assumptions, cautions: calculatorCautions }));
       return;
     }

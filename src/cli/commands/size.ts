@@ -6,7 +6,6 @@
  * - with --power (default 0.8): {nPerArm, totalN, days?}; with --n instead: {power};
  *   with --n and --power but no effect: the minimum detectable effect.
  */
-import { parseArgs } from "node:util";
 import { calculatorCautions, sizeAssumptions } from "../../stats/calculator-notes.ts";
 import {
   type SizeAnswer,
@@ -14,7 +13,13 @@ import {
   sizeCalculator,
   sizeDocument,
 } from "../../stats/size-calculator.ts";
-import { FlagError, notesBlock, numberFlag, percent, runCalculator } from "../calculator-flags.ts";
+import {
+  type CalculatorCommand,
+  FlagError,
+  notesBlock,
+  percent,
+  runCalculatorCommand,
+} from "../calculator-flags.ts";
 import type { CommandIo } from "../io.ts";
 
 export const summary = "sample size, run length, power or minimum detectable effect of a test plan";
@@ -43,72 +48,81 @@ Design:
   --strict                  count rejections in both tails (R strict = TRUE)
   --json                    print one JSON document`;
 
+const command: CalculatorCommand = {
+  name: "size",
+  help,
+  options: {
+    baseline: { type: "string" },
+    mde: { type: "string" },
+    "mde-absolute": { type: "string" },
+    sd: { type: "string" },
+    delta: { type: "string" },
+    mean: { type: "string" },
+    alpha: { type: "string" },
+    power: { type: "string" },
+    n: { type: "string" },
+    ratio: { type: "string" },
+    arms: { type: "string" },
+    correction: { type: "string" },
+    "variance-reduction": { type: "string" },
+    "daily-traffic": { type: "string" },
+    strict: { type: "boolean" },
+    json: { type: "boolean" },
+  },
+  flagNames: {
+    covariateCorrelation: "--variance-reduction",
+    varianceReduction: "--variance-reduction",
+    relativeEffect: "--mde",
+    absoluteEffect: "--mde-absolute",
+    mdeAbsolute: "--mde-absolute",
+    "baseline + effect": "the treatment rate (--baseline plus the effect)",
+  },
+};
+
 export async function run(args: string[], io: CommandIo): Promise<number> {
-  return runCalculator("size", help, io, () => {
-    let values: Record<string, string | boolean | undefined>;
-    try {
-      ({ values } = parseArgs({
-        args,
-        strict: true,
-        allowPositionals: false,
-        options: {
-          baseline: { type: "string" },
-          mde: { type: "string" },
-          "mde-absolute": { type: "string" },
-          sd: { type: "string" },
-          delta: { type: "string" },
-          mean: { type: "string" },
-          alpha: { type: "string" },
-          power: { type: "string" },
-          n: { type: "string" },
-          ratio: { type: "string" },
-          arms: { type: "string" },
-          correction: { type: "string" },
-          "variance-reduction": { type: "string" },
-          "daily-traffic": { type: "string" },
-          strict: { type: "boolean" },
-          json: { type: "boolean" },
-          help: { type: "boolean", short: "h" },
-        },
-      }));
-    } catch (error) {
-      throw new FlagError((error as Error).message);
+  return runCalculatorCommand(command, args, io, (flags) => {
+    if (flags.has("baseline") === flags.has("sd")) {
+      throw new FlagError(
+        "give --baseline RATE (conversion metric) or --sd SD (continuous metric), one of them",
+      );
     }
-    if (values.help) {
-      io.out(help);
-      return;
-    }
-    const text = (name: string) => values[name] as string | undefined;
-    const number = (name: string) => numberFlag(name, text(name));
-    const correction = text("correction");
-    if (correction !== undefined && correction !== "bonferroni" && correction !== "none") {
-      throw new FlagError(`--correction must be bonferroni or none; got ${JSON.stringify(correction)}`);
+    if (!flags.has("mde") && !flags.has("mde-absolute") && !flags.has("delta") && !flags.has("n")) {
+      throw new FlagError(
+        "give the effect to detect (--mde, --mde-absolute or --delta), or --n for the minimum detectable effect",
+      );
     }
     const request: SizeRequest = {
-      ...optional("baseline", number("baseline")),
-      ...optional("mde", number("mde")),
-      ...optional("mdeAbsolute", number("mde-absolute")),
-      ...optional("sd", number("sd")),
-      ...optional("delta", number("delta")),
-      ...optional("mean", number("mean")),
-      ...optional("alpha", number("alpha")),
-      ...optional("power", number("power")),
-      ...optional("n", number("n")),
-      ...optional("ratio", number("ratio")),
-      ...optional("arms", number("arms")),
-      ...optional("varianceReduction", number("variance-reduction")),
-      ...optional("dailyTraffic", number("daily-traffic")),
-      ...(correction === undefined ? {} : { correction: correction as "bonferroni" | "none" }),
-      convention: values.strict ? "strict" : "upperTail",
+      ...flags.optionalNumber("baseline", "baseline"),
+      ...flags.optionalNumber("mde", "mde"),
+      ...flags.optionalNumber("mdeAbsolute", "mde-absolute"),
+      ...flags.optionalNumber("sd", "sd"),
+      ...flags.optionalNumber("delta", "delta"),
+      ...flags.optionalNumber("mean", "mean"),
+      ...flags.optionalNumber("alpha", "alpha"),
+      ...flags.optionalNumber("power", "power"),
+      ...flags.optionalNumber("n", "n"),
+      ...flags.optionalNumber("ratio", "ratio"),
+      ...flags.optionalNumber("arms", "arms"),
+      ...flags.optionalNumber("varianceReduction", "variance-reduction"),
+      ...flags.optionalNumber("dailyTraffic", "daily-traffic"),
+      ...optionalChoice("correction", flags.choice("correction", ["bonferroni", "none"] as const)),
+      convention: flags.has("strict") ? "strict" : "upperTail",
     };
     const answer = sizeCalculator(request);
     const assumptions = sizeAssumptions(answer.plan);
-    if (values.json) {
+    if (flags.has("json")) {
       io.out(JSON.stringify({ ...sizeDocument(answer), assumptions, cautions: calculatorCautions }));
       return;
     }
     io.out([...sizeText(answer), ...notesBlock(assumptions, calculatorCautions)].join("\n"));
   });
+}
+
+function optionalChoice<Key extends string, Value>(
+  key: Key,
+  value: Value | undefined,
+): { [K in Key]?: Value } {
+  return (value === undefined ? {} : { [key]: value }) as { [K in Key]?: Value };
 }
 
 function sizeText(answer: SizeAnswer): string[] {
@@ -135,10 +149,6 @@ function sizeText(answer: SizeAnswer): string[] {
     ...(plan.days === undefined ? [] : [`Run length:    ${plan.days} days`]),
     `Sized for ${describeEffect(plan)} at power ${plan.power}, alpha ${plan.alpha} (${plan.method})`,
   ];
-}
-
-function optional<Key extends string>(key: Key, value: number | undefined): { [K in Key]?: number } {
-  return (value === undefined ? {} : { [key]: value }) as { [K in Key]?: number };
 }
 
 function describeEffect(plan: {

@@ -2,10 +2,9 @@
  * `plumbline skew-check`: does the Welch t-test hold its alpha on a zero-inflated, log-normal
  * metric (revenue per user) at the planned n? A seeded simulation (statistics.md section 9).
  */
-import { parseArgs } from "node:util";
-import { StatsInputError } from "../../stats/errors.ts";
 import { createRandom } from "../../stats/random.ts";
 import { simulateSkewedMetric } from "../../stats/skewed-metric-simulation.ts";
+import { type CalculatorCommand, FlagError, notesBlock, runCalculatorCommand } from "../calculator-flags.ts";
 import type { CommandIo } from "../io.ts";
 
 export const summary =
@@ -27,76 +26,52 @@ const help = `Usage: plumbline skew-check --payer-share P --log-mean M --log-sd 
 /** Upper bound on simulated users (runs x users per arm) so that one call stays within seconds. */
 export const maximumSimulatedUsers = 50_000_000;
 
-class FlagError extends Error {}
-
-function numberFlag(name: string, value: string | undefined, fallback?: number): number {
-  if (value === undefined) {
-    if (fallback === undefined) throw new FlagError(`--${name} is required`);
-    return fallback;
-  }
-  const parsed = Number(value.trim());
-  if (value.trim() === "" || !Number.isFinite(parsed)) {
-    throw new FlagError(`--${name} must be a number; got ${JSON.stringify(value)}`);
-  }
-  return parsed;
-}
+const command: CalculatorCommand = {
+  name: "skew-check",
+  help,
+  options: {
+    "payer-share": { type: "string" },
+    "log-mean": { type: "string" },
+    "log-sd": { type: "string" },
+    n: { type: "string" },
+    lift: { type: "string" },
+    alpha: { type: "string" },
+    sims: { type: "string" },
+    seed: { type: "string" },
+    json: { type: "boolean" },
+  },
+  flagNames: { nPerArm: "--n", simulations: "--sims" },
+};
 
 export async function run(args: string[], io: CommandIo): Promise<number> {
-  try {
-    let values: Record<string, string | boolean | undefined>;
-    try {
-      ({ values } = parseArgs({
-        args,
-        strict: true,
-        allowPositionals: false,
-        options: {
-          "payer-share": { type: "string" },
-          "log-mean": { type: "string" },
-          "log-sd": { type: "string" },
-          n: { type: "string" },
-          lift: { type: "string" },
-          alpha: { type: "string" },
-          sims: { type: "string" },
-          seed: { type: "string" },
-          json: { type: "boolean" },
-          help: { type: "boolean", short: "h" },
-        },
-      }));
-    } catch (error) {
-      throw new FlagError((error as Error).message);
-    }
-    if (values.help) {
-      io.out(help);
-      return 0;
-    }
-    const text = (name: string) => values[name] as string | undefined;
-    const simulations = numberFlag("sims", text("sims"), 2000);
-    const nPerArm = numberFlag("n", text("n"));
+  return runCalculatorCommand(command, args, io, (flags) => {
+    const simulations = flags.numberOr("sims", 2000);
+    const nPerArm = flags.requiredNumber("n");
     if (simulations * nPerArm > maximumSimulatedUsers) {
       throw new FlagError(
         `--sims x --n must be at most ${maximumSimulatedUsers.toLocaleString("en-US")}; lower --sims`,
       );
     }
-    const seed = numberFlag("seed", text("seed"), 1);
+    const seed = flags.numberOr("seed", 1);
     if (!Number.isInteger(seed)) throw new FlagError(`--seed must be an integer; got ${seed}`);
     const result = simulateSkewedMetric(
       {
         metric: {
           kind: "zeroInflatedLogNormal",
-          payerShare: numberFlag("payer-share", text("payer-share")),
-          logMean: numberFlag("log-mean", text("log-mean")),
-          logSd: numberFlag("log-sd", text("log-sd")),
+          payerShare: flags.requiredNumber("payer-share"),
+          logMean: flags.requiredNumber("log-mean"),
+          logSd: flags.requiredNumber("log-sd"),
         },
         nPerArm,
         simulations,
-        lift: numberFlag("lift", text("lift"), 0.05),
-        alpha: numberFlag("alpha", text("alpha"), 0.05),
+        lift: flags.numberOr("lift", 0.05),
+        alpha: flags.numberOr("alpha", 0.05),
       },
       createRandom(seed),
     );
-    if (values.json) {
+    if (flags.has("json")) {
       io.out(JSON.stringify({ ...result, seed }));
-      return 0;
+      return;
     }
     const pct = (value: number) => `${(value * 100).toFixed(2)} %`;
     io.out(
@@ -106,24 +81,8 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
           (result.offNominal ? "  <- NOT the nominal alpha" : ""),
         `  power at lift ${result.lift}  ${pct(result.power)} +- ${pct(result.powerStandardError)} (normal approximation ${pct(result.nominalPower)})`,
         `  metric mean ${result.metricMean.toPrecision(4)}, sd ${result.metricSd.toPrecision(4)}, skewness ${result.metricSkewness.toPrecision(3)}`,
-        "",
-        "Assumptions:",
-        ...result.assumptions.map((line) => `  - ${line}`),
-        "",
-        "Cautions:",
-        ...result.cautions.map((line) => `  - ${line}`),
+        ...notesBlock(result.assumptions, result.cautions),
       ].join("\n"),
     );
-    return 0;
-  } catch (error) {
-    if (error instanceof FlagError) {
-      io.err(`plumbline skew-check: ${error.message}\n\n${help}`);
-      return 2;
-    }
-    if (error instanceof StatsInputError) {
-      io.err(`plumbline skew-check: ${error.message}`);
-      return 2;
-    }
-    throw error;
-  }
+  });
 }
