@@ -18,6 +18,7 @@ import {
   inputControl,
   notesSection,
   numberFrom,
+  selectControl,
   startPage,
   textFrom,
   withLoading,
@@ -58,7 +59,7 @@ const measureLabels: Readonly<Record<Measure, string>> = {
 
 type RuleForecast = Record<Measure, Summary> & {
   readonly label: string;
-  readonly alpha: number;
+  readonly alpha: number | null;
   readonly description: string;
   readonly probabilityToReachTarget: { readonly estimate: number; readonly monteCarloError: number } | null;
 };
@@ -82,6 +83,7 @@ export interface ForecastReport {
   readonly comparison: readonly Comparison[];
   readonly probabilityToReachTarget: { readonly estimate: number; readonly monteCarloError: number } | null;
   readonly definitions: Readonly<Record<string, string>>;
+  readonly byTeam: readonly (Record<Measure, Summary> & { readonly name: string; readonly tests: number })[];
   readonly assumptions: readonly string[];
   readonly cautions: readonly string[];
 }
@@ -178,7 +180,10 @@ function sideBySide(report: ForecastReport): HTMLElement {
     readonly value: (rule: RuleForecast) => string;
   }
   const lines: Line[] = [
-    { label: "alpha (two-sided equivalent)", value: (rule) => formatNumber(rule.alpha, 3) },
+    {
+      label: "alpha (two-sided equivalent)",
+      value: (rule) => (rule.alpha === null ? "per family" : formatNumber(rule.alpha, 3)),
+    },
     ...measures.map(
       (measure): Line => ({
         label: `${measureLabels[measure]}: mean (5 to 95 %)`,
@@ -226,6 +231,27 @@ function sideBySide(report: ForecastReport): HTMLElement {
       "ul",
       { class: "muted" },
       report.rules.map((rule) => el("li", {}, el("strong", {}, rule.label), `: ${rule.description}`)),
+    ),
+  );
+}
+
+function teamTable(report: ForecastReport): HTMLElement {
+  type Team = ForecastReport["byTeam"][number];
+  return el(
+    "div",
+    { class: "table-scroll unbounded" },
+    dataTable(
+      `By team, under the headline rule (${report.rule}): means over the simulated quarters`,
+      [
+        { header: "Team", cell: (row: Team) => row.name },
+        { header: "Planned tests", numeric: true, cell: (row) => formatInteger(row.tests) },
+        ...measures.map((measure) => ({
+          header: measureLabels[measure],
+          numeric: true,
+          cell: (row: Team) => formatMeasure(measure, row[measure].mean),
+        })),
+      ],
+      report.byTeam,
     ),
   );
 }
@@ -281,12 +307,18 @@ export function forecastRequest(form: HTMLFormElement): Record<string, unknown> 
   if (alpha !== "") rules.push(`alpha=${alpha}`);
   const valuePerLift = numberFrom(form, "valuePerLift");
   const launchCost = numberFrom(form, "launchCost");
+  const winRate = numberFrom(form, "fallbackWinRate");
+  const effectScale = numberFrom(form, "fallbackEffectScale");
   return {
     rules,
     target: numberFrom(form, "target") ?? null,
     sims: numberFrom(form, "sims"),
     seed: numberFrom(form, "seed"),
     economics: valuePerLift !== undefined ? { valuePerLift, launchCost: launchCost ?? 0 } : null,
+    fallbackPrior:
+      winRate !== undefined && effectScale !== undefined
+        ? { winRate, effectScale, shape: textFrom(form, "fallbackShape") || undefined }
+        : null,
   };
 }
 
@@ -336,6 +368,28 @@ startPage(async (root) => {
       field("Cost of one launch", number("launchCost", "5000", { min: "0" })),
     ),
     el(
+      "fieldset",
+      {},
+      el("legend", {}, "Assumed prior (families with too little history)"),
+      field(
+        "Win rate",
+        number("fallbackWinRate", "", { min: "0", max: "1" }),
+        "P(real win); empty = no assumed prior",
+      ),
+      field(
+        "Effect scale",
+        number("fallbackEffectScale", "", { min: "0" }),
+        "typical size of a real effect, e.g. 0.02",
+      ),
+      field(
+        "Shape",
+        selectControl("fallbackShape", [
+          ["normal", "normal"],
+          ["fat", "fat-tailed"],
+        ]),
+      ),
+    ),
+    el(
       "div",
       { class: "actions" },
       el("button", { type: "submit", disabled: active.length === 0 }, "Run the forecast"),
@@ -364,6 +418,8 @@ startPage(async (root) => {
         charts(report),
         el("h2", {}, "Current and recommended side by side"),
         sideBySide(report),
+        el("h2", {}, "By team"),
+        teamTable(report),
       );
     });
   }

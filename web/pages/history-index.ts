@@ -1,6 +1,6 @@
 /**
  * The teams and quarters named in the history, read once from GET /api/v1/experiments (the API
- * has no team list). A test's quarter follows the review's rule: the quarter of its decision
+ * has no team list), up to a bound so that a long history does not cost hundreds of requests. A test's quarter follows the review's rule: the quarter of its decision
  * date, else of its end date, else of its start date.
  */
 import { apiJson } from "./common.ts";
@@ -15,7 +15,12 @@ interface ExperimentDates {
 export interface HistoryIndex {
   readonly teams: readonly string[];
   readonly quarters: readonly string[];
+  /** False when the history is longer than the pages read: the lists may miss some names. */
+  readonly complete: boolean;
 }
+
+/** At most this many experiments are read for the lists (four of the API's largest pages). */
+export const indexedExperiments = 2000;
 
 export function quarterOf(date: string): string {
   const month = Number(date.slice(5, 7));
@@ -32,8 +37,9 @@ export function historyIndex(): Promise<HistoryIndex> {
 async function readIndex(): Promise<HistoryIndex> {
   const teams = new Set<string>();
   const quarters = new Set<string>();
+  let complete = false;
   // 500 is the API's largest page.
-  for (let offset = 0; ; offset += 500) {
+  for (let offset = 0; offset < indexedExperiments; offset += 500) {
     const page = await apiJson<{ items: ExperimentDates[]; total: number }>(
       `/api/v1/experiments?limit=500&offset=${offset}`,
     );
@@ -42,10 +48,14 @@ async function readIndex(): Promise<HistoryIndex> {
       const date = item.decidedOn ?? item.endedOn ?? item.startedOn;
       if (date) quarters.add(quarterOf(date));
     }
-    if (page.items.length === 0 || offset + page.items.length >= page.total) break;
+    if (page.items.length === 0 || offset + page.items.length >= page.total) {
+      complete = true;
+      break;
+    }
   }
   return {
     teams: [...teams].sort((left, right) => left.localeCompare(right)),
     quarters: [...quarters].sort(),
+    complete,
   };
 }

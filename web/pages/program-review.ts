@@ -25,6 +25,7 @@ import {
   formatPercent,
   formatSignedPercent,
   type Interval,
+  inputControl,
   notesSection,
   selectControl,
   startPage,
@@ -59,6 +60,11 @@ interface Review {
     readonly leftOut: { readonly total: number; readonly aa: number; readonly sampleRatioMismatch: number };
   };
   readonly shipped: number;
+  readonly atPracticalThreshold: {
+    readonly threshold: number;
+    readonly expectedFalseWins: Estimate;
+    readonly falseDiscoveryRate: Estimate;
+  } | null;
   readonly expectedRealWins: Estimate;
   readonly expectedFalseWins: Estimate;
   readonly falseDiscoveryRate: Estimate;
@@ -230,7 +236,28 @@ function headline(review: Review): HTMLElement {
         : "",
       "aa",
     ),
+    ...practicalFigures(review),
   ]);
+}
+
+function practicalFigures(review: Review): HTMLElement[] {
+  const practical = review.atPracticalThreshold;
+  if (!practical) return [];
+  const threshold = formatSignedPercent(practical.threshold, 1);
+  return [
+    figure(
+      `Expected false wins at a practical threshold of ${threshold}`,
+      count(practical.expectedFalseWins.estimate),
+      intervalText(practical.expectedFalseWins, count),
+      "practical-false-wins",
+    ),
+    figure(
+      `False discovery rate at ${threshold}`,
+      formatPercent(practical.falseDiscoveryRate.estimate),
+      intervalText(practical.falseDiscoveryRate, (value) => formatPercent(value)),
+      "practical-false-discovery-rate",
+    ),
+  ];
 }
 
 function charts(review: Review, rows: readonly ReviewRow[]): HTMLElement {
@@ -428,27 +455,76 @@ startPage(async (root) => {
     [["", "The family with most tests"], ...(askedFamily ? [[askedFamily, askedFamily] as const] : [])],
     askedFamily ?? "",
   );
+  // The lists start from the history index and grow with every review's teams and quarters
+  // (the index reads a bounded part of a long history).
+  const teams = new Set(index.teams);
+  const quarters = new Set(index.quarters);
+  const teamSelect = selectControl("team", [], parameters.get("team") ?? "");
+  const quarterSelect = selectControl("quarter", [], parameters.get("quarter") ?? "");
+  function fillChoices(): void {
+    const keep = (select: HTMLSelectElement, values: readonly string[], all: string) => {
+      const selected =
+        select.value ||
+        (select.id === "field-team" ? parameters.get("team") : parameters.get("quarter")) ||
+        "";
+      const shown = selected && !values.includes(selected) ? [...values, selected] : values;
+      select.replaceChildren(
+        el("option", { value: "" }, all),
+        ...shown.map((value) => {
+          const option = el("option", { value }, value);
+          option.selected = value === selected;
+          return option;
+        }),
+      );
+    };
+    keep(
+      teamSelect,
+      [...teams].sort((left, right) => left.localeCompare(right)),
+      "All teams",
+    );
+    keep(quarterSelect, [...quarters].sort().reverse(), "All quarters");
+  }
+  fillChoices();
   const form = el(
     "form",
     { class: "filters", "aria-label": "Review settings" },
     field("Metric family", familySelect),
+    field("Team", teamSelect),
+    field("Quarter", quarterSelect),
     field(
-      "Team",
-      selectControl(
-        "team",
-        [["", "All teams"], ...index.teams.map((team) => [team, team] as const)],
-        parameters.get("team") ?? "",
-      ),
+      "Launch alpha",
+      inputControl("alpha", {
+        type: "number",
+        step: "any",
+        min: "0",
+        max: "1",
+        value: parameters.get("alpha") ?? "",
+        placeholder: "0.05",
+      }),
+      "two-sided; empty = 0.05",
     ),
     field(
-      "Quarter",
+      "Practical threshold",
+      inputControl("practical", {
+        type: "number",
+        step: "any",
+        min: "0",
+        value: parameters.get("practical") ?? "",
+        placeholder: "none",
+      }),
+      "also count wins below this lift as false, e.g. 0.01",
+    ),
+    field(
+      "Prior family",
       selectControl(
-        "quarter",
+        "priorFamily",
         [
-          ["", "All quarters"],
-          ...[...index.quarters].reverse().map((quarter) => [quarter, quarter] as const),
+          ["", "best fit"],
+          ["symmetric", "symmetric"],
+          ["skewed", "skewed"],
+          ["grid", "grid"],
         ],
-        parameters.get("quarter") ?? "",
+        parameters.get("priorFamily") ?? "",
       ),
     ),
     el("div", { class: "actions" }, el("button", { type: "submit" }, "Review")),
@@ -473,7 +549,7 @@ startPage(async (root) => {
 
   async function load(): Promise<void> {
     const query = new URLSearchParams();
-    for (const name of ["family", "team", "quarter"]) {
+    for (const name of ["family", "team", "quarter", "alpha", "practical", "priorFamily"]) {
       const value = textFrom(form, name);
       if (value !== "") query.set(name, value);
     }
@@ -484,6 +560,12 @@ startPage(async (root) => {
       async () => {
         const review = await apiJson<Review>(`/api/v1/review?${query}`);
         fillFamilies(review);
+        // "(no team)" and "(no date)" label groups; they are not values the filters take.
+        for (const group of review.confusionMatrix.byTeam)
+          if (!group.team.startsWith("(")) teams.add(group.team);
+        for (const group of review.confusionMatrix.byQuarter)
+          if (/^\d{4}Q[1-4]$/.test(group.quarter)) quarters.add(group.quarter);
+        fillChoices();
         // Pin the family the server chose, so that the table and the downloads are of the same one.
         if (!query.has("family")) query.set("family", review.metricFamily);
         const tests = await apiJson<ReviewTests>(`/api/v1/review/tests?${query}`);

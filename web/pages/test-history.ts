@@ -88,21 +88,25 @@ function liftCell(experiment: Experiment): string {
 
 startPage(async (root) => {
   const parameters = new URLSearchParams(location.search);
-  const [metrics, teams] = await Promise.all([
+  const [metrics, index] = await Promise.all([
     apiJson<{ items: Metric[] }>("/api/v1/metrics").then((body) => body.items),
-    historyIndex().then((index) => index.teams),
+    historyIndex(),
   ]);
+  const team = parameters.get("team") ?? "";
+  // A select when every team is known; a text box with suggestions when the history is longer.
+  const teamControl = index.complete
+    ? selectControl("team", [["", "All teams"], ...index.teams.map((name) => [name, name] as const)], team)
+    : inputControl("team", { type: "text", list: "team-names", value: team, placeholder: "All teams" });
+  const teamNames = el(
+    "datalist",
+    { id: "team-names" },
+    index.teams.map((name) => el("option", { value: name })),
+  );
   const form = el(
     "form",
     { class: "filters", "aria-label": "Filters" },
-    field(
-      "Team",
-      selectControl(
-        "team",
-        [["", "All teams"], ...teams.map((team) => [team, team] as const)],
-        parameters.get("team") ?? "",
-      ),
-    ),
+    field("Team", teamControl),
+    teamNames,
     field(
       "Metric",
       selectControl(
