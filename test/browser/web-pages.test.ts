@@ -369,7 +369,7 @@ describe("plumbline's pages in a real browser", () => {
     const shown =
       (await page.locator('[data-figure="probability-to-reach-target"] .value').textContent()) ?? "";
     expectShown("P(reach target)", shown, forecast.rules[0]!.probabilityToReachTarget.estimate);
-    const table = (await page.locator("table.data").last().textContent()) ?? "";
+    const table = (await page.locator("#rules-side-by-side table").textContent()) ?? "";
     expect(table).toContain("current");
     expect(table).toContain("recommended");
     const notes = await page.locator(".notes").textContent();

@@ -226,7 +226,7 @@ function sideBySide(report: ForecastReport): HTMLElement {
   return el(
     "div",
     {},
-    el("div", { class: "table-scroll unbounded" }, table),
+    el("div", { class: "table-scroll unbounded", id: "rules-side-by-side" }, table),
     el(
       "ul",
       { class: "muted" },
