@@ -1,8 +1,8 @@
 /**
  * Benchmark of the defaults calibration (issue 6): a full calibration (optimum, textbook and
  * current designs, curves, sensitivity with four re-optimisations) with a fitted prior of 20
- * components. Target: <= 1 s. Also an assumed fat-tailed prior (half-t, quadrature) and the
- * test-and-roll and skew-check calls. Baseline in the same process: 1,000,000 evaluations of
+ * components. Target: <= 1 s. Also an assumed fat-tailed prior (half-t, quadrature; same
+ * target), and the test-and-roll and skew-check calls. Baseline in the same process: 1,000,000 evaluations of
  * the normal cdf, the kernel the expectations are built on; figures are reported as ratios to it.
  */
 import { assumedPrior } from "../src/stats/assumed-prior.ts";
@@ -88,17 +88,25 @@ export async function runCalibrateBench(): Promise<object> {
   const withPenalty = medianTime(3, () =>
     calibrateDefaults({ ...input, program: { ...program, lossPenalty: 1 } }),
   );
-  const fatInput = {
-    ...input,
-    program: { ...program, prior: assumedPrior({ winRate: 0.2, effectScale: 0.01, shape: "fat" }) },
-    priorFor: (variant: { winRateFactor: number; effectScaleFactor: number }) =>
-      assumedPrior({
-        winRate: 0.2 * variant.winRateFactor,
-        effectScale: 0.01 * variant.effectScaleFactor,
-        shape: "fat",
-      }),
+  // The assumed fat-tailed prior (half-t, 3 df: adaptive quadrature). Each run uses a slightly
+  // different effect scale so that no run reuses another's memoised half-t integrals; the first
+  // run (cold JIT) is reported beside the median of the warm ones.
+  let fatRun = 0;
+  const fatCalibration = () => {
+    const scale = 0.01 * (1 + fatRun++ * 1e-6);
+    return calibrateDefaults({
+      ...input,
+      program: { ...program, prior: assumedPrior({ winRate: 0.2, effectScale: scale, shape: "fat" }) },
+      priorFor: (variant) =>
+        assumedPrior({
+          winRate: 0.2 * variant.winRateFactor,
+          effectScale: scale * variant.effectScaleFactor,
+          shape: "fat",
+        }),
+    });
   };
-  const fat = medianTime(1, () => calibrateDefaults(fatInput));
+  const fatFirst = medianTime(1, fatCalibration);
+  const fat = medianTime(5, fatCalibration);
   const arm = { priorMean: 0.68, priorSd: 0.03, responseSd: Math.sqrt(0.68 * 0.32) };
   const testAndRoll = medianTime(5, () =>
     planTestAndRoll({ population: 100_000, arms: [arm, { ...arm, priorMean: 0.69 }] }),
@@ -126,7 +134,13 @@ export async function runCalibrateBench(): Promise<object> {
       meetsTarget: fitted.medianMs <= 1000,
     },
     fullCalibrationFitted20WithLossPenalty: { ...withPenalty, ratioToBaseline: ratio(withPenalty.medianMs) },
-    fullCalibrationAssumedFat: { ...fat, ratioToBaseline: ratio(fat.medianMs) },
+    fullCalibrationAssumedFat: {
+      ...fat,
+      firstRunMs: Math.round(fatFirst.medianMs * 10) / 10,
+      ratioToBaseline: ratio(fat.medianMs),
+      targetMs: 1000,
+      meetsTarget: fat.medianMs <= 1000 && fatFirst.medianMs <= 1000,
+    },
     testAndRollUnequalPriors: { ...testAndRoll, ratioToBaseline: ratio(testAndRoll.medianMs) },
     skewCheck1000PerArm2000Runs: { ...skew, ratioToBaseline: ratio(skew.medianMs) },
   };

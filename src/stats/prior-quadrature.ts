@@ -254,6 +254,34 @@ export function studentTDensity(x: number, degreesOfFreedom: number): number {
   return Math.exp(logConstant - ((degreesOfFreedom + 1) / 2) * Math.log1p((x * x) / degreesOfFreedom));
 }
 
+/**
+ * The density of Student's t with df degrees of freedom as a function of x, its constant worked
+ * out once. When (df + 1) / 2 is a whole or half-whole number below 16 (the df a prior uses:
+ * 1, 2, 3, ...) the power (1 + x^2/df)^(-(df+1)/2) is taken by multiplication (and one square
+ * root) instead of exp and log, which the expectations over a half-t prior call millions of
+ * times. Same values as studentTDensity to rounding.
+ */
+export function studentTDensityFunction(degreesOfFreedom: number): (x: number) => number {
+  if (!(degreesOfFreedom > 0)) return () => Number.NaN;
+  const constant = Math.exp(
+    logGamma((degreesOfFreedom + 1) / 2) -
+      logGamma(degreesOfFreedom / 2) -
+      0.5 * Math.log(degreesOfFreedom * Math.PI),
+  );
+  const exponent = (degreesOfFreedom + 1) / 2;
+  const whole = Math.floor(exponent);
+  const half = exponent - whole === 0.5;
+  if (exponent < 16 && (exponent === whole || half)) {
+    return (x) => {
+      const base = 1 + (x * x) / degreesOfFreedom;
+      let power = half ? Math.sqrt(base) : 1;
+      for (let k = 0; k < whole; k++) power *= base;
+      return constant / power;
+    };
+  }
+  return (x) => constant * Math.exp(-exponent * Math.log1p((x * x) / degreesOfFreedom));
+}
+
 /** int g(x) dx and int x g(x) dx over [a, b] (b may be +Infinity). */
 export interface MassAndMoment {
   readonly mass: number;

@@ -24,6 +24,7 @@ import {
   integrateAdaptive,
   integrateMassAndMoment,
   studentTDensity,
+  studentTDensityFunction,
 } from "./prior-quadrature.ts";
 
 /** P(theta in (lower, upper], y > threshold) and E[theta 1{theta in (lower, upper]} 1{y > threshold}]. */
@@ -270,7 +271,11 @@ function halfTPartial(
       ? [Math.max(lower, 0), upper]
       : [Math.max(-upper, 0), lower === Number.NEGATIVE_INFINITY ? Infinity : -lower];
   if (!(from < to)) return zeroPartial;
-  const density = (x: number) => (2 / scale) * studentTDensity(x / scale, degreesOfFreedom);
+  const key = `${sign} ${scale} ${degreesOfFreedom} ${standardError} ${threshold} ${from} ${to}`;
+  const cached = halfTCache.get(key);
+  if (cached !== undefined) return cached;
+  const unitDensity = studentTDensityFunction(degreesOfFreedom);
+  const density = (x: number) => (2 / scale) * unitDensity(x / scale);
   const ship = (x: number) => normalCdf((sign * x - threshold) / standardError);
   // Break the range where the integrand changes fastest: at the threshold (where the ship
   // probability steps, over a width s) and at a few scales, so each piece is smooth.
@@ -300,8 +305,20 @@ function halfTPartial(
     probability += part.mass;
     magnitudeMoment += part.moment;
   }
-  return { probability, effectMoment: sign * magnitudeMoment };
+  const result = { probability, effectMoment: sign * magnitudeMoment };
+  if (halfTCache.size >= halfTCacheLimit) halfTCache.clear();
+  halfTCache.set(key, result);
+  return result;
 }
+
+/**
+ * Half-t partials already computed, by component, SE, threshold and range. The calibration asks
+ * for the same ones many times (its sensitivity scenarios that change only the win rate keep the
+ * components and revisit the same grid of designs); the function is pure, so a bounded memo
+ * changes no result.
+ */
+const halfTCache = new Map<string, ShippingPartial>();
+const halfTCacheLimit = 100_000;
 
 /**
  * Expected estimate shipped per test, E[y 1{y > threshold}]: the claimed lift. The noise part

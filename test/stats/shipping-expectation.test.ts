@@ -7,6 +7,7 @@ import {
   bivariateNormalUpperProbability,
   integrateAdaptive,
   studentTDensity,
+  studentTDensityFunction,
 } from "../../src/stats/prior-quadrature.ts";
 import { createRandom, type RandomSource } from "../../src/stats/random.ts";
 import {
@@ -246,5 +247,28 @@ describe("properties", () => {
     expectClose("studentTDensity(0, 3)", { df: 3 }, studentTDensity(0, 3), 2 / (Math.PI * Math.sqrt(3)), {
       relative: 1e-14,
     });
+  });
+  it("the multiplied-out t density equals the exp/log form; Cauchy at 1 df: 1 / (pi (1 + x^2))", () => {
+    for (const df of [1, 2, 3, 4, 4.5, 7, 30, 31, 40]) {
+      const fast = studentTDensityFunction(df);
+      for (const x of [0, 0.3, -1, 2.5, 10, -80, 1e4]) {
+        expectClose("studentTDensityFunction", { df, x }, fast(x), studentTDensity(x, df), {
+          relative: 1e-13,
+        });
+      }
+    }
+    // The Cauchy density (t with 1 df), common knowledge.
+    expectClose("Cauchy density", { x: 2 }, studentTDensityFunction(1)(2), 1 / (5 * Math.PI), {
+      relative: 1e-15,
+    });
+    expect(studentTDensityFunction(0)(1)).toBeNaN();
+  });
+  it("a repeated half-t partial (memoised) returns the same numbers", () => {
+    const component: PriorComponent = { kind: "halfT", sign: 1, scale: 0.0123, df: 3 };
+    const first = componentPartial(component, 0.004, 0.007, 0, Number.POSITIVE_INFINITY);
+    const again = componentPartial(component, 0.004, 0.007, 0, Number.POSITIVE_INFINITY);
+    expect(again).toEqual(first);
+    const other = componentPartial(component, 0.004, 0.0071, 0, Number.POSITIVE_INFINITY);
+    expect(other.probability).toBeLessThan(first.probability);
   });
 });
