@@ -9,6 +9,7 @@ import { and, eq, isNotNull } from "drizzle-orm";
 import type { Database } from "../db/client.ts";
 import { experiments, metrics, results } from "../db/schema.ts";
 import { type AssumedPriorInput, assumedPrior } from "../stats/assumed-prior.ts";
+import { normalSurvival } from "../stats/distributions.ts";
 import type { EffectPrior } from "../stats/effect-prior.ts";
 import { fitEffectPrior } from "../stats/fit-effect-prior.ts";
 import type { BacklogForecastInput, ForecastPlannedTest, ForecastRule } from "../stats/forecast-backlog.ts";
@@ -276,10 +277,12 @@ function recommendedCriticalValues(
       lossPenalty: economics.lossPenalty ?? 0,
     });
     byFamily.set(family, optimum.threshold);
-    parts.push(`${family} z* = ${optimum.threshold.toFixed(3)}`);
+    parts.push(
+      `${family} z* = ${optimum.threshold.toFixed(3)} (alpha ${(2 * normalSurvival(optimum.threshold)).toFixed(3)})`,
+    );
   }
   return {
     criticalValues: backlog.map((test) => byFamily.get(test.metricFamily)!),
-    description: `the threshold the defaults optimiser recommends per family for value ${economics.valuePerLift} per unit of lift and launch cost ${economics.launchCost} (${parts.join(", ")}); planned sizes are kept`,
+    description: `the threshold the defaults optimiser recommends per family for value ${economics.valuePerLift.toLocaleString("en-US")} per unit of lift and launch cost ${economics.launchCost.toLocaleString("en-US")} (${parts.join(", ")}); planned sizes are kept`,
   };
 }

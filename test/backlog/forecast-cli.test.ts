@@ -252,6 +252,17 @@ describe("plumbline backlog and forecast --workspace", () => {
     const page = readFileSync(html, "utf8");
     expect(page).toContain("<svg");
     expect(page).not.toMatch(/<script|https?:\/\/(?!www\.w3\.org|vega\.github\.io)/);
+    // The page carries the comparison on common draws, the groups, each planned test and the priors.
+    for (const section of [
+      "Rule alpha=0.05 against rule current, on the same simulated quarters",
+      "By team (rule current)",
+      "By metric family (rule current)",
+      "Planned tests",
+      "Priors of true effects",
+      "winner's curse of the shipped set",
+    ])
+      expect(page, section).toContain(section);
+    for (const key of ["express-pay", "typo-search", "bundles"]) expect(page).toContain(`<th>${key}</th>`);
   });
 
   it("says what is missing when a family has too little history", async () => {
