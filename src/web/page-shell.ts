@@ -83,7 +83,7 @@ export function renderPageShell(page: WebPage): string {
 <a class="skip-link" href="#main">Skip to the content</a>
 <header class="site-header">
 <a class="brand" href="/app/review">plumbline</a>
-<nav aria-label="Pages"><ul>${navigation}</ul></nav>
+<nav aria-label="Pages"><ul class="nav-list">${navigation}</ul></nav>
 <div class="session" id="session" aria-live="polite"></div>
 </header>
 <main id="main" tabindex="-1">

@@ -5,6 +5,7 @@
  * failed request. The expected numbers come from the API's JSON, read beside the page.
  */
 import { existsSync } from "node:fs";
+import { readFile } from "node:fs/promises";
 import { type Browser, type BrowserContext, chromium, type Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { loadDemoWorkspace } from "../../src/demo/load-demo.ts";
@@ -273,6 +274,15 @@ describe("plumbline's pages in a real browser", () => {
     await page.getByRole("button", { name: /per-test table \(CSV\)/ }).click();
     const file = await download;
     expect(file.suggestedFilename()).toBe(`plumbline-review-${review.metricFamily}.csv`);
+    const csv = await readFile((await file.path()) ?? "", "utf8");
+    // A header line and one line a test.
+    expect(csv.trim().split("\n").length).toBe(tests.count + 1);
+    const reportDownload = page.waitForEvent("download");
+    await page.getByRole("button", { name: /report \(HTML\)/ }).click();
+    const report = await reportDownload;
+    expect(report.suggestedFilename()).toBe(`plumbline-review-${review.metricFamily}.html`);
+    const html = await readFile((await report.path()) ?? "", "utf8");
+    expect(html).toMatch(/^<!doctype html>/i);
     // A team and quarter: the page asks the API the same question and shows its answer.
     await page.getByLabel("Team", { exact: true }).selectOption("Spoke");
     await page.getByRole("button", { name: "Review" }).click();
