@@ -162,6 +162,23 @@ describe("plumbline forecast --plan", () => {
     const report = result.json();
     expect(report.rules.map((rule: { label: string }) => rule.label)).toEqual(["alpha=0.05", "alpha=0.2"]);
     expect(report.comparison[0].baseline).toBe("alpha=0.05");
+    const text = await cli([
+      "forecast",
+      "--plan",
+      plan(),
+      ...prior,
+      "--sims",
+      "1000",
+      "--rule",
+      "alpha=0.05",
+      "--rule",
+      "alpha=0.2",
+    ]);
+    const printed = text.io.stdout.join("\n");
+    expect(printed).toMatch(/alpha=0\.2 vs alpha=0\.05 \(same simulated quarters\): \+\d\.\d\d shipped/);
+    // Counts are printed whole, the expectation beside the mean; the cautions close the output.
+    expect(printed).toMatch(/ {2}shipped {8}\d\.\d\d \(\d\.\d\d\)( +\d+){5}\n/);
+    expect(printed).toMatch(/statistician's review/);
   });
 
   it("lists every bad plan row with its row and column and forecasts nothing", async () => {

@@ -244,23 +244,33 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
 function formatReport(report: ForecastReport, htmlPath: string | undefined): string {
   const pct = (value: number) => `${(value * 100).toFixed(2)} %`;
   const num = (value: number) => value.toFixed(2);
+  // Quantiles of a count are whole unless type-7 interpolation falls between two counts.
+  const count = (value: number) => String(Number(value.toFixed(1)));
+  const signed = (text: string) => (text.startsWith("-") ? text : `+${text}`);
   const lines: string[] = [
     `Backlog forecast${report.workspace ? ` for ${report.workspace}` : ""}: ${report.plannedTests} planned tests, ${report.sims} simulated quarters, seed ${report.seed}`,
     "",
   ];
   for (const rule of report.rules) {
     lines.push(`Rule ${rule.label}${rule.description ? `: ${rule.description}` : ""}`);
-    lines.push("                  mean (expected)      5 %     25 %     50 %     75 %     95 %");
-    const row = (label: string, summary: (typeof rule)["shipped"], format: (value: number) => string) => {
+    lines.push(
+      `${"".padEnd(17)}${"mean (expected)".padEnd(21)}${["5 %", "25 %", "50 %", "75 %", "95 %"].map((label) => label.padStart(8)).join(" ")}`,
+    );
+    const row = (
+      label: string,
+      summary: (typeof rule)["shipped"],
+      format: (value: number) => string,
+      quantileFormat: (value: number) => string = format,
+    ) => {
       const q = summary.quantiles;
       const expected = summary.expected === null ? "" : ` (${format(summary.expected)})`;
       lines.push(
-        `  ${label.padEnd(14)} ${`${format(summary.mean)}${expected}`.padEnd(20)} ${[q.p5, q.p25, q.p50, q.p75, q.p95].map((value) => format(value).padStart(8)).join(" ")}`,
+        `  ${label.padEnd(14)} ${`${format(summary.mean)}${expected}`.padEnd(20)} ${[q.p5, q.p25, q.p50, q.p75, q.p95].map((value) => quantileFormat(value).padStart(8)).join(" ")}`,
       );
     };
-    row("shipped", rule.shipped, num);
-    row("real wins", rule.realWins, num);
-    row("false wins", rule.falseWins, num);
+    row("shipped", rule.shipped, num, count);
+    row("real wins", rule.realWins, num, count);
+    row("false wins", rule.falseWins, num, count);
     row("claimed lift", rule.claimedLift, pct);
     row("realized lift", rule.realizedLift, pct);
     row("gap", rule.liftGap, pct);
@@ -272,7 +282,7 @@ function formatReport(report: ForecastReport, htmlPath: string | undefined): str
   }
   for (const difference of report.comparison)
     lines.push(
-      `${difference.label} vs ${difference.baseline} (same draws): realized lift ${pct(difference.realizedLift.mean)} (5-95 %: ${pct(difference.realizedLift.quantiles.p5)} to ${pct(difference.realizedLift.quantiles.p95)}), false wins ${num(difference.falseWins.mean)}`,
+      `${difference.label} vs ${difference.baseline} (same simulated quarters): ${signed(num(difference.shipped.mean))} shipped, ${signed(num(difference.falseWins.mean))} false wins, realized lift ${signed(pct(difference.realizedLift.mean))} (5-95 %: ${pct(difference.realizedLift.quantiles.p5)} to ${pct(difference.realizedLift.quantiles.p95)}); ${difference.label} realizes at least as much in ${pct(difference.probabilityRealizedAtLeastBaseline.estimate)} of quarters`,
     );
   if (htmlPath) lines.push(`Written: ${htmlPath}`);
   lines.push("", "Cautions:", ...report.cautions.map((text) => `  - ${text}`));
