@@ -281,6 +281,7 @@ function operatingCurve(
     };
   };
   const points: OperatingPoint[] = [];
-  for (let i = 0; i < curvePoints; i++) points.push(pointAt(-3 + (i * 9) / (curvePoints - 1)));
+  // z* from -4 to 6 in steps of 0.25 (41 points), so that z* = 0 and whole numbers are on it.
+  for (let i = 0; i < curvePoints; i++) points.push(pointAt(-4 + (i * 10) / (curvePoints - 1)));
   return { design, nPerArm, points, designPoint: pointAt(threshold) };
 }

@@ -81,6 +81,12 @@ describe("plumbline calibrate", () => {
     expect(report.current).toBeNull();
     expect(report.recommended.expectedValue).toBeGreaterThanOrEqual(report.textbook.expectedValue);
     expect(report.curves.valueVsAlpha.length).toBeGreaterThan(10);
+    expect(report.curves.valueVsN.length).toBeGreaterThan(10);
+    // The operating curve with the recommended and textbook points (current: none without history).
+    expect(report.curves.operatingCurves.map((curve: { design: string }) => curve.design)).toEqual([
+      "recommended",
+      "textbook",
+    ]);
     expect(report.sensitivity.scenarios).toHaveLength(4);
     expect(report.cautions.join(" ")).toMatch(/statistician/);
   });
@@ -95,6 +101,16 @@ describe("plumbline calibrate", () => {
     const report = JSON.parse(io.stdout[0]!);
     expect(report.prior.source).toBe("fitted");
     expect(report.current.nPerArm).toBe(15_000);
+    expect(report.curves.operatingCurves.map((curve: { design: string }) => curve.design)).toEqual([
+      "recommended",
+      "textbook",
+      "current",
+    ]);
+    const text = memoryIo();
+    expect(
+      await main(["calibrate", "--workspace", "lumen-books", "--family", "signup", ...economicsFlags], text),
+    ).toBe(0);
+    expect(text.stdout.join("\n")).toMatch(/Operating points[\s\S]*recommended[\s\S]*textbook[\s\S]*current/);
   });
 
   it("test-and-roll mode gives Feit & Berman's 2,284 per arm", async () => {

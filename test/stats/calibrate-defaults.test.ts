@@ -98,6 +98,53 @@ describe("calibrateDefaults", () => {
   });
 });
 
+describe("operating curves of the recommended, textbook and current designs", () => {
+  // A program with no real losses: a null point mass and half-normal wins, so "not a real win"
+  // is exactly the null and its ship rate is the one-sided false-win rate 1 - Phi(z*) = alpha / 2.
+  const winsOnly = assumedPrior({ winRate: 0.3, lossRate: 0, effectScale: 0.02 });
+  const winsProgram: ProgramEconomics = { ...program, prior: winsOnly };
+  const report = calibrateDefaults({
+    program: winsProgram,
+    mde: 0.02,
+    current: { alpha: 0.1, nPerArm: 20_000, source: "test" },
+    priorFor: (variant) =>
+      assumedPrior({ winRate: 0.3 * variant.winRateFactor, lossRate: 0, effectScale: 0.02 }),
+    priorDescription: "test prior",
+  });
+  const designs = { recommended: report.recommended, textbook: report.textbook, current: report.current! };
+  for (const curve of report.curves.operatingCurves) {
+    const design = designs[curve.design];
+    it(`${curve.design}: its point sits at alpha / 2 nulls shipped and at its own expected real wins`, () => {
+      const inputs = { design: curve.design, alpha: design.alpha, nPerArm: design.nPerArm };
+      expect(curve.nPerArm).toBe(design.nPerArm);
+      // Definition of the two-sided level (statistics.md section 0): a null ships with alpha / 2.
+      expectClose("falseShipRate", inputs, curve.designPoint.falseShipRate, design.alpha / 2, {
+        relative: 1e-12,
+      });
+      const comparisons = design.testsPerPeriod * (program.arms - 1);
+      expectClose(
+        "trueShipRate x P(real win) x comparisons",
+        inputs,
+        curve.designPoint.trueShipRate * 0.3 * comparisons,
+        design.expectedRealWins,
+        { relative: 1e-12 },
+      );
+    });
+  }
+  it("at threshold 0 a half-normal win ships with 1/2 + asin(rho) / pi (Sheppard 1899 orthant formula)", () => {
+    // theta ~ N(0, sigma^2) restricted to theta > 0 and y = theta + N(0, s^2): P(y > 0 | theta > 0)
+    // = 2 P(theta > 0, y > 0) = 1/2 + asin(rho) / pi with rho = sigma / sqrt(sigma^2 + s^2).
+    const curve = report.curves.operatingCurves[0]!;
+    const atZero = curve.points.find((point) => Math.abs(point.alpha - 1) < 1e-12)!;
+    const s = report.recommended.standardError * Math.sqrt(report.recommended.nPerArm / curve.nPerArm);
+    const rho = 0.02 / Math.hypot(0.02, s);
+    expectClose("trueShipRate at z = 0", { s }, atZero.trueShipRate, 0.5 + Math.asin(rho) / Math.PI, {
+      relative: 1e-12,
+    });
+    expectClose("falseShipRate at z = 0", {}, atZero.falseShipRate, 0.5, { relative: 1e-15 });
+  });
+});
+
 describe("transformPrior", () => {
   it("scales the share of real effects and the effect sizes, keeping a proper mixture", () => {
     const halved = transformPrior(prior, { winRateFactor: 0.5, effectScaleFactor: 2 });

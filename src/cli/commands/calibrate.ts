@@ -303,6 +303,13 @@ function formatReport(report: Awaited<ReturnType<typeof calibrateWorkspace>>): s
     designLine("textbook", report.textbook),
     ...(report.current ? [designLine("current", report.current)] : []),
     "",
+    "Operating points (share of non-wins shipped -> share of real wins shipped; --json has the curves):",
+    ...report.curves.operatingCurves.map(
+      (curve) =>
+        `  ${curve.design.padEnd(12)} ${formatNumber(curve.designPoint.falseShipRate * 100, 1).padStart(5)} % -> ` +
+        `${formatNumber(curve.designPoint.trueShipRate * 100, 1).padStart(5)} %`,
+    ),
+    "",
     `Optimum check: ${report.optimum.check.isMaximum ? "no neighbouring design is better" : "A NEIGHBOUR IS BETTER"}` +
       (report.optimum.check.atBounds.length > 0
         ? ` (on the bound: ${report.optimum.check.atBounds.join(", ")})`
