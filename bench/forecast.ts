@@ -2,9 +2,11 @@
  * Backlog forecast benchmark: 200 planned tests x 10,000 simulated quarters (target <= 1 s),
  * against a baseline in the same process: drawing the same number of (theta, noise) normal pairs
  * from createRandom in a bare loop. Reported: median of 5 runs, for one rule, for two rules on
- * common random numbers, and with the exact expectations computed beside the simulation.
+ * common random numbers, with the exact expectations computed beside the simulation, and in
+ * event-loop steps as the API and CLI run it (runForecastInSteps).
  * Run: npm run bench -- forecast
  */
+import { runForecastInSteps } from "../src/backlog/run-forecast-in-steps.ts";
 import { assumedPrior } from "../src/stats/assumed-prior.ts";
 import type { EffectPrior } from "../src/stats/effect-prior.ts";
 import { type BacklogForecastInput, forecastBacklog } from "../src/stats/forecast-backlog.ts";
@@ -65,6 +67,16 @@ function medianSeconds(run: () => unknown): number {
   return times.sort((a, b) => a - b)[Math.floor(repeats / 2)]!;
 }
 
+async function medianSecondsAsync(run: () => Promise<unknown>): Promise<number> {
+  const times: number[] = [];
+  for (let repeat = 0; repeat < repeats; repeat++) {
+    const started = performance.now();
+    await run();
+    times.push((performance.now() - started) / 1000);
+  }
+  return times.sort((a, b) => a - b)[Math.floor(repeats / 2)]!;
+}
+
 export async function runForecastBench(): Promise<object> {
   const baseline = medianSeconds(() => {
     const random = createRandom(1);
@@ -75,6 +87,8 @@ export async function runForecastBench(): Promise<object> {
   const oneRule = medianSeconds(() => forecastBacklog(input(1, false)));
   const twoRules = medianSeconds(() => forecastBacklog(input(2, false)));
   const withExpectations = medianSeconds(() => forecastBacklog(input(2, true)));
+  // As the API and CLI run it: steps of 50000 draws and summaries in 10 ms slices, yielding between.
+  const inSteps = await medianSecondsAsync(() => runForecastInSteps(input(2, true)));
   const target = 1;
   return {
     command: "npm run bench -- forecast",
@@ -90,11 +104,13 @@ export async function runForecastBench(): Promise<object> {
       oneRule,
       twoRulesCommonRandomNumbers: twoRules,
       twoRulesWithExactExpectations: withExpectations,
+      twoRulesInEventLoopSteps: inSteps,
     },
     ratioToBaseline: {
       oneRule: oneRule / baseline,
       twoRulesCommonRandomNumbers: twoRules / baseline,
       twoRulesWithExactExpectations: withExpectations / baseline,
+      twoRulesInEventLoopSteps: inSteps / baseline,
     },
     targetSeconds: target,
     meetsTarget: twoRules <= target,
