@@ -270,6 +270,19 @@ describe("plumbline's pages in a real browser", () => {
     expect(await page.locator(".table-scroll table.data").last().locator("tbody tr").count()).toBe(
       tests.count,
     );
+    // Sorting by P(real win): the first row is then the test the API rates most likely real.
+    const perTest = await api<{ tests: { key: string; probabilityRealWin: number }[] }>(
+      `/api/v1/review/tests?family=${review.metricFamily}`,
+    );
+    const mostLikely = [...perTest.tests].sort((a, b) => b.probabilityRealWin - a.probabilityRealWin)[0]!;
+    await page.getByRole("button", { name: "P(real win)" }).click();
+    const perTestTable = page.locator(".table-scroll table.data").last();
+    await expect
+      .poll(() => perTestTable.locator("thead th[aria-sort]").getAttribute("aria-sort"))
+      .toBe("descending");
+    const firstKey = await perTestTable.locator("tbody tr").first().locator("th").textContent();
+    const firstProbability = perTest.tests.find((test) => test.key === firstKey)?.probabilityRealWin;
+    expect(firstProbability).toBe(mostLikely.probabilityRealWin);
     const download = page.waitForEvent("download");
     await page.getByRole("button", { name: /per-test table \(CSV\)/ }).click();
     const file = await download;

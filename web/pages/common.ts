@@ -265,6 +265,8 @@ export interface Column<Row> {
   readonly numeric?: boolean;
   /** Long text (names) may wrap; everything else stays on one line. */
   readonly wrap?: boolean;
+  /** When given, the header is a button that sorts the rows by this value (null sorts last). */
+  readonly sortValue?: (row: Row) => number | string | null;
   /** A longer explanation shown on the header (title attribute). */
   readonly note?: string;
 }
@@ -274,29 +276,13 @@ export function dataTable<Row>(
   columns: readonly Column<Row>[],
   rows: readonly Row[],
 ): HTMLTableElement {
-  return el(
-    "table",
-    { class: "data" },
-    el("caption", {}, caption),
-    el(
-      "thead",
-      {},
-      el(
-        "tr",
-        {},
-        columns.map((column) =>
-          el(
-            "th",
-            { scope: "col", class: column.numeric ? "numeric" : undefined, title: column.note },
-            column.header,
-          ),
-        ),
-      ),
-    ),
-    el(
-      "tbody",
-      {},
-      rows.map((row) =>
+  const body = el("tbody", {});
+  const headers: HTMLTableCellElement[] = [];
+  let sortedBy = -1;
+  let descending = false;
+  const render = (ordered: readonly Row[]) =>
+    body.replaceChildren(
+      ...ordered.map((row) =>
         el(
           "tr",
           {},
@@ -311,7 +297,43 @@ export function dataTable<Row>(
           ),
         ),
       ),
-    ),
+    );
+  const sortBy = (index: number) => {
+    const key = columns[index]?.sortValue;
+    if (!key) return;
+    // A second press on the same column turns the order round; a new column starts descending.
+    descending = sortedBy === index ? !descending : true;
+    sortedBy = index;
+    const direction = descending ? -1 : 1;
+    const ordered = [...rows].sort((left, right) => {
+      const a = key(left);
+      const b = key(right);
+      if (a === b) return 0;
+      if (a === null) return 1; // missing values last, whichever the direction
+      if (b === null) return -1;
+      return (a < b ? -1 : 1) * direction;
+    });
+    headers.forEach((header, headerIndex) => {
+      if (headerIndex === index) header.setAttribute("aria-sort", descending ? "descending" : "ascending");
+      else header.removeAttribute("aria-sort");
+    });
+    render(ordered);
+  };
+  columns.forEach((column, index) => {
+    const label = column.sortValue
+      ? el("button", { type: "button", class: "sort", onclick: () => sortBy(index) }, column.header)
+      : column.header;
+    headers.push(
+      el("th", { scope: "col", class: column.numeric ? "numeric" : undefined, title: column.note }, label),
+    );
+  });
+  render(rows);
+  return el(
+    "table",
+    { class: "data" },
+    el("caption", {}, caption),
+    el("thead", {}, el("tr", {}, headers)),
+    body,
   );
 }
 

@@ -350,40 +350,55 @@ function sensitivityTable(review: Review): HTMLElement {
 
 function testsTable(rows: readonly ReviewRow[]): HTMLElement {
   const table = dataTable(
-    `Every reviewed test (${formatInteger(rows.length)})`,
+    `Every reviewed test (${formatInteger(rows.length)}); the column buttons sort`,
     [
-      { header: "Key", cell: (row: ReviewRow) => row.key },
+      { header: "Key", cell: (row: ReviewRow) => row.key, sortValue: (row: ReviewRow) => row.key },
       { header: "Name", wrap: true, cell: (row) => row.name },
-      { header: "Team", cell: (row) => row.team ?? "–" },
-      { header: "Quarter", cell: (row) => row.quarter ?? "–" },
-      { header: "Decision", cell: (row) => row.decision.replace("_", " ") },
+      { header: "Team", cell: (row) => row.team ?? "–", sortValue: (row) => row.team },
+      { header: "Quarter", cell: (row) => row.quarter ?? "–", sortValue: (row) => row.quarter },
+      { header: "Decision", cell: (row) => row.decision.replace("_", " "), sortValue: (row) => row.decision },
       {
         header: "Claimed ± SE",
         numeric: true,
+        sortValue: (row) => row.claimed,
         cell: (row) => `${formatSignedPercent(row.claimed)} ± ${formatPercent(row.standardError, 2)}`,
       },
       {
         header: "Shrunk (95 % interval)",
         numeric: true,
+        sortValue: (row) => row.shrunk,
         note: "posterior mean of the true lift under the fitted prior, and its 95 % credible interval",
         cell: (row) =>
           `${formatSignedPercent(row.shrunk)} (${formatSignedPercent(row.shrunkLower)} to ${formatSignedPercent(row.shrunkUpper)})`,
       },
-      { header: "P(real win)", numeric: true, cell: (row) => formatPercent(row.probabilityRealWin, 0) },
+      {
+        header: "P(real win)",
+        numeric: true,
+        cell: (row) => formatPercent(row.probabilityRealWin, 0),
+        sortValue: (row) => row.probabilityRealWin,
+      },
       {
         header: "Power",
         numeric: true,
+        sortValue: (row) => row.power,
         note: "power at the typical real win",
         cell: (row) => formatPercent(row.power, 0),
       },
-      { header: "Exaggeration", numeric: true, cell: (row) => `${formatNumber(row.exaggeration, 2)} ×` },
+      {
+        header: "Exaggeration",
+        numeric: true,
+        cell: (row) => `${formatNumber(row.exaggeration, 2)} ×`,
+        sortValue: (row) => row.exaggeration,
+      },
       {
         header: "Realized",
         numeric: true,
+        sortValue: (row) => row.realized,
         cell: (row) => (row.realized === null ? "–" : formatSignedPercent(row.realized)),
       },
       {
         header: "Flags",
+        sortValue: (row) => row.flags.length,
         cell: (row) =>
           row.flags.map((flag) =>
             el(
