@@ -74,3 +74,24 @@ export function findRoot(
   }
   return b;
 }
+
+/**
+ * Where a continuous function that rises through 0 crosses it, searching upwards from `lower`:
+ * `lower` itself when f(lower) >= 0; otherwise Brent's method on a bracket grown from 16 by
+ * factors of 4 (sample sizes span many orders of magnitude); NaN when f is still negative
+ * beyond `limit`. Example: findIncreasingRoot((n) => n - 1000, 2, 1e12) -> 1000.
+ */
+export function findIncreasingRoot(
+  f: (x: number) => number,
+  lower: number,
+  limit: number,
+  tolerance = 1e-12,
+): number {
+  if (f(lower) >= 0) return lower;
+  let upper = Math.max(16, 2 * lower);
+  while (f(upper) < 0) {
+    upper *= 4;
+    if (upper > limit) return Number.NaN;
+  }
+  return findRoot(f, lower, upper, tolerance);
+}

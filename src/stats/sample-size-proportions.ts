@@ -12,7 +12,7 @@
  */
 import { normalCdf, normalQuantile } from "./distributions.ts";
 import { requireOpenUnit, requirePositive, StatsInputError } from "./errors.ts";
-import { findRoot } from "./find-root.ts";
+import { findIncreasingRoot } from "./find-root.ts";
 import type { Sidedness, TailConvention } from "./sample-size-t.ts";
 
 export interface TwoProportionDesign {
@@ -94,15 +94,9 @@ export function twoProportionSampleSize(design: TwoProportionDesign & { readonly
   requireOpenUnit("power", design.power);
   if (design.power <= resolved.alpha / 2)
     throw new StatsInputError("power", `above alpha (${resolved.alpha})`, design.power);
-  const objective = (n: number) => powerAt(n, resolved) - design.power;
-  const lower = 2;
-  if (objective(lower) >= 0) return lower;
-  let upper = 16;
-  while (objective(upper) < 0) {
-    upper *= 4;
-    if (upper > 1e14) throw new StatsInputError("p2", "far enough from p1 to reach the power", design.p2);
-  }
-  return findRoot(objective, lower, upper, 1e-12);
+  const n = findIncreasingRoot((size) => powerAt(size, resolved) - design.power, 2, 1e14);
+  if (Number.isNaN(n)) throw new StatsInputError("p2", "far enough from p1 to reach the power", design.p2);
+  return n;
 }
 
 /** Cohen's effect size h for two proportions (Cohen 1988, ch. 6). */

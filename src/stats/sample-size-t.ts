@@ -11,7 +11,7 @@
  */
 import { noncentralTCdf, noncentralTSurvival, studentTQuantile } from "./distributions.ts";
 import { requireOpenUnit, requirePositive, StatsInputError } from "./errors.ts";
-import { findRoot } from "./find-root.ts";
+import { findIncreasingRoot } from "./find-root.ts";
 
 export type TailConvention = "upperTail" | "strict";
 export type Sidedness = "twoSided" | "oneSided";
@@ -89,19 +89,11 @@ export function twoSampleTSampleSize(design: TwoSampleTDesign & { readonly power
       : resolved.alpha;
   if (design.power <= floor)
     throw new StatsInputError("power", `above alpha (${resolved.alpha})`, design.power);
-  const objective = (n: number) => powerAt(n, resolved) - design.power;
   // Smallest n with a defined test: both arms >= 1 unit and df >= 1.
   const lower = Math.max(2, 1 / resolved.ratio + 1e-9);
-  if (objective(lower) >= 0) return lower;
-  let upper = 16;
-  while (objective(upper) < 0) {
-    upper *= 4;
-    if (upper > 1e12)
-      throw new StatsInputError(
-        "delta",
-        "large enough to reach the power with under 1e12 units",
-        design.delta,
-      );
+  const n = findIncreasingRoot((size) => powerAt(size, resolved) - design.power, lower, 1e12);
+  if (Number.isNaN(n)) {
+    throw new StatsInputError("delta", "large enough to reach the power with under 1e12 units", design.delta);
   }
-  return findRoot(objective, lower, upper, 1e-12);
+  return n;
 }

@@ -1,7 +1,7 @@
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { StatsInputError } from "../../src/stats/errors.ts";
-import { findRoot } from "../../src/stats/find-root.ts";
+import { findIncreasingRoot, findRoot } from "../../src/stats/find-root.ts";
 import {
   meanMinimumDetectableEffect,
   proportionMinimumDetectableEffect,
@@ -361,5 +361,25 @@ describe("findRoot (Brent 1973)", () => {
       { relative: 1e-14 },
     );
     expect(findRoot((x) => x * x + 1, 0, 2)).toBeNaN();
+  });
+  it("findIncreasingRoot grows its bracket over orders of magnitude, and says NaN past the limit", () => {
+    expectClose(
+      "root at 1e9",
+      {},
+      findIncreasingRoot((n) => Math.log(n / 1e9), 2, 1e12),
+      1e9,
+      {
+        relative: 1e-12,
+      },
+    );
+    expect(findIncreasingRoot((n) => n - 1, 2, 1e12)).toBe(2);
+    expect(findIncreasingRoot(() => -1, 2, 1e6)).toBeNaN();
+  });
+  it("a small treatment share (ratio 0.01) still solves, near the normal-approximation size", () => {
+    // Same variance of the difference, sd^2 (1/n + 1/(ratio n)) = 2 sd^2 / n_equal, gives
+    // n = n_equal (1 + 1/ratio) / 2 (normal approximation, common practice); 2 % for the t's df.
+    const equal = twoSampleTSampleSize({ delta: 0.5, sd: 1, power: 0.8 });
+    const skewed = twoSampleTSampleSize({ delta: 0.5, sd: 1, power: 0.8, ratio: 0.01 });
+    expectClose("control size at ratio 0.01", {}, skewed, (equal * (1 + 1 / 0.01)) / 2, { relative: 0.02 });
   });
 });
