@@ -17,6 +17,8 @@ a { color: #1f5fa8; }
 <p>plumbline keeps a company's history of A/B tests and reviews the experimentation program as a whole:
 how often its wins are real, how much reported lifts are exaggerated, and which alpha, power and run
 length to use next.</p>
+<p><a href="/app/sign-in"><strong>Open plumbline</strong></a>: sign in with a token, then the test history,
+the program review, the recommended defaults and the backlog forecast.</p>
 <ul>
 <li><a href="/api/reference">API reference</a> (readable)</li>
 <li><a href="/api/openapi.json">OpenAPI document</a> (machine readable)</li>
