@@ -26,7 +26,7 @@ const sizes = [10_000, 100_000, 1_000_000].filter(
   (n) => n <= Number(process.env.PLUMBLINE_BENCH_FIT_MAX ?? 1e6),
 );
 const tolerance = 1e-6;
-const emIterationCap: Record<number, number> = { 10000: 20_000, 100000: 5_000, 1000000: 500 };
+const emIterationCap: Record<number, number> = { 10000: 5_000, 100000: 1_000, 1000000: 100 };
 const mebibyte = 2 ** 20;
 
 function simulate(count: number, seed: number): Observation[] {

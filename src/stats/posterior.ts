@@ -541,8 +541,8 @@ function summarize(workspace: Workspace, level: number, upperZ: number): Posteri
   const variance = Math.max(0, secondMoment - mean * mean);
   const sd = Math.sqrt(variance);
   const tailShare = (1 - level) / 2;
-  const lower = mixtureQuantile(workspace, tailShare, mean - upperZ * sd, pointMassOnly);
-  const upper = mixtureQuantile(workspace, 1 - tailShare, mean + upperZ * sd, pointMassOnly);
+  const lower = mixtureQuantile(workspace, tailShare, mean - upperZ * sd, sd, pointMassOnly);
+  const upper = mixtureQuantile(workspace, 1 - tailShare, mean + upperZ * sd, sd, pointMassOnly);
   probPositive = clampProbability(probPositive);
   probNegative = clampProbability(probNegative);
   probNull = clampProbability(probNull);
@@ -567,7 +567,13 @@ function clampProbability(value: number): number {
  * inf { t : F(t) >= p } for the mixture cdf F: atoms first (p inside a jump returns the atom),
  * then safeguarded Newton on the continuous part, started at the normal approximation.
  */
-function mixtureQuantile(workspace: Workspace, p: number, start: number, pointMassOnly: boolean): number {
+function mixtureQuantile(
+  workspace: Workspace,
+  p: number,
+  start: number,
+  spread: number,
+  pointMassOnly: boolean,
+): number {
   const count = workspace.count;
   if (pointMassOnly) {
     const order = Array.from({ length: count }, (_, c) => c).sort(
@@ -586,8 +592,6 @@ function mixtureQuantile(workspace: Workspace, p: number, start: number, pointMa
     const kind = workspace.kind[c] as number;
     const m = workspace.location[c] as number;
     if (kind === kindPoint) {
-      const below = mixtureLowerTail(workspace, m);
-      if (below < p && p <= below + (workspace.weight[c] as number)) return m;
       low = Math.min(low, m);
       high = Math.max(high, m);
       continue;
@@ -598,17 +602,31 @@ function mixtureQuantile(workspace: Workspace, p: number, start: number, pointMa
     low = Math.min(low, Number.isFinite(l) ? l : Math.min(m, u) - 12 * sc);
     high = Math.max(high, Number.isFinite(u) ? u : Math.max(m, l) + 12 * sc);
   }
+  // Atoms: p inside a jump returns the atom; otherwise the atom bounds the bracket on its side,
+  // so that Newton never steps across a jump.
+  for (let c = 0; c < count; c++) {
+    if (workspace.kind[c] !== kindPoint) continue;
+    const m = workspace.location[c] as number;
+    const below = mixtureLowerTail(workspace, m);
+    if (below < p && p <= below + (workspace.weight[c] as number)) return m;
+    if (p <= below) high = Math.min(high, m);
+    else low = Math.max(low, m);
+  }
   let t = start > low && start < high ? start : 0.5 * (low + high);
-  const resolution = 1e-13 * Math.max(Math.abs(low), Math.abs(high));
+  // Newton converges quadratically from the normal approximation: stop at a cdf error of 1e-13
+  // (a quantile error of about 1e-13 / density) or a step below 1e-13 of the spread.
+  const resolution = 1e-13 * Math.max(spread, 1e-300);
   for (let iteration = 0; iteration < 200; iteration++) {
     const below = mixtureLowerTail(workspace, t);
     const excess = below - p;
-    if (Math.abs(excess) <= 1e-14) return t;
+    if (Math.abs(excess) <= 1e-13) return t;
     if (excess < 0) low = t;
     else high = t;
     const density = mixtureDensity(workspace, t);
     let next = density > 0 ? t - excess / density : Number.NaN;
     if (!(next > low && next < high)) next = 0.5 * (low + high);
+    // Within 1e-8 of p, the Newton step's own error is of order 1e-16: take it and stop.
+    else if (Math.abs(excess) <= 1e-8) return next;
     if (Math.abs(next - t) <= resolution || high - low <= resolution) return next;
     t = next;
   }
