@@ -11,10 +11,12 @@
  * minimiser lies on the simplex. Each iteration solves the quadratic model of f at x subject to
  * x >= 0 by a primal active-set method (Nocedal & Wright 2006, section 16.5) and takes a
  * backtracking (Armijo) line search step. Two departures for speed, neither changing the optimum:
- * - the Hessian is formed only over the working columns (positive weight or negative gradient),
- *   so that its cost falls from N K^2 / 2 to N |C|^2 / 2 once the solution turns sparse; a column
- *   left out re-enters as soon as its gradient turns negative, and convergence is always checked
- *   on every column;
+ * - the Hessian is formed only over the working columns (positive weight, plus the columns whose
+ *   gradient most asks for weight, at most max(10, support) of them), so that its cost falls from
+ *   N K^2 / 2 to N |C|^2 / 2 once the solution turns sparse; a column left out enters as soon as
+ *   its gradient asks, and convergence is always checked on every column;
+ * - many columns (a fine theta grid) start on an evenly spread subset, any row the start leaves
+ *   unexplained gets its best column added, and the QP is solved in Jacobi-scaled variables;
  * - with more than largeProblemRows rows and no starting point, a deterministic every-m-th-row
  *   subsample is solved first and warm-starts the full problem.
  * Convergence: max_k d_k <= 1 + tolerance, d_k = (1/A)(sum_i a_i L_ik/(Lw)_i + c_k/w_k) at
