@@ -56,6 +56,28 @@ function fittedPrior(count: number): { prior: EffectPrior; fittedComponents: num
   };
 }
 
+/** Unpadded fits of a larger seeded history (2,000 tests, wins and losses of different sizes). */
+function unpaddedFits(): Record<"skewed" | "grid", EffectPrior> {
+  const random = createRandom(2027);
+  const observations = Array.from({ length: 2000 }, () => {
+    const u = random.uniform();
+    const theta =
+      u < 0.4
+        ? 0
+        : u < 0.7
+          ? 0.004 * random.normal()
+          : u < 0.9
+            ? 0.015 * Math.abs(random.normal())
+            : -0.03 * Math.abs(random.normal());
+    const s = 0.002 + 0.01 * random.uniform();
+    return { y: theta + s * random.normal(), s };
+  });
+  return {
+    skewed: fitEffectPrior(observations, { family: "skewed" }).prior,
+    grid: fitEffectPrior(observations, { family: "grid" }).prior,
+  };
+}
+
 export async function runCalibrateBench(): Promise<object> {
   let sink = 0;
   const baseline = medianTime(5, () => {
@@ -85,6 +107,26 @@ export async function runCalibrateBench(): Promise<object> {
   const fitted = medianTime(5, () => {
     evaluations = calibrateDefaults(input).optimum.evaluations;
   });
+  const fits = unpaddedFits();
+  const fittedOther = (fittedPriorOf: EffectPrior) => {
+    const otherInput = {
+      ...input,
+      program: { ...program, prior: fittedPriorOf },
+      priorFor: (variant: Parameters<typeof transformPrior>[1]) => transformPrior(fittedPriorOf, variant),
+    };
+    calibrateDefaults(otherInput);
+    const timing = medianTime(3, () => calibrateDefaults(otherInput));
+    return {
+      components: fittedPriorOf.components.length,
+      kinds: [...new Set(fittedPriorOf.components.map((entry) => entry.component.kind))],
+      ...timing,
+      ratioToBaseline: ratio(timing.medianMs),
+      meetsTarget: timing.medianMs <= 1000,
+    };
+  };
+  const ratio = (ms: number) => Math.round((ms / baseline.medianMs) * 100) / 100;
+  const fittedSkewed = fittedOther(fits.skewed);
+  const fittedGrid = fittedOther(fits.grid);
   const withPenalty = medianTime(3, () =>
     calibrateDefaults({ ...input, program: { ...program, lossPenalty: 1 } }),
   );
@@ -121,7 +163,6 @@ export async function runCalibrateBench(): Promise<object> {
       createRandom(1),
     ),
   );
-  const ratio = (ms: number) => Math.round((ms / baseline.medianMs) * 100) / 100;
   return {
     baseline: { what: "1,000,000 normalCdf evaluations", ...baseline, sink: sink > 0 },
     fullCalibrationFitted20: {
@@ -133,6 +174,8 @@ export async function runCalibrateBench(): Promise<object> {
       targetMs: 1000,
       meetsTarget: fitted.medianMs <= 1000,
     },
+    fullCalibrationFittedSkewedUnpadded: fittedSkewed,
+    fullCalibrationFittedGridUnpadded: fittedGrid,
     fullCalibrationFitted20WithLossPenalty: { ...withPenalty, ratioToBaseline: ratio(withPenalty.medianMs) },
     fullCalibrationAssumedFat: {
       ...fat,
