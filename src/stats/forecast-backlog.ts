@@ -34,6 +34,13 @@ export interface ForecastPlannedTest {
   /** The metric family whose prior the test draws from. */
   readonly family: string;
   readonly prior: EffectPrior;
+  /**
+   * Bootstrap refits of the family's prior (src/stats/bootstrap-prior.ts), to carry the prior's
+   * own uncertainty into the ranges: each simulated quarter draws one refit, uniformly, shared
+   * by every test holding the same array, and those tests' true effects from it. Absent: `prior`
+   * is taken as known.
+   */
+  readonly priorReplicates?: readonly EffectPrior[] | null;
   /** SE of the test's relative lift. */
   readonly standardError: number;
 }
@@ -187,6 +194,13 @@ export const forecastCautions: readonly string[] = [
   "Planned tests are treated as independent and run as planned; interactions, early stopping and changed plans are not modelled.",
 ];
 
+/** The cautions when some tests draw their prior from bootstrap refits. */
+export const forecastCautionsWithReplicates: readonly string[] = [
+  forecastCautions[0]!,
+  "Fitted priors are drawn from bootstrap refits, one per simulated quarter, so their uncertainty is in these ranges; the bootstrap does not see a history that is unrepresentative of the plan, and assumed priors and overrides are taken as known.",
+  forecastCautions[2]!,
+];
+
 /** Validates the input and prepares a stepwise simulation. */
 export function createBacklogSimulation(input: BacklogForecastInput): BacklogSimulation {
   const simulations = input.simulations ?? defaultForecastSimulations;
@@ -207,16 +221,35 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
   const standardErrors = new Float64Array(testCount);
   const samplers: PriorSampler[] = [];
   const samplerByPrior = new Map<EffectPrior, PriorSampler>();
+  const samplerOf = (prior: EffectPrior): PriorSampler => {
+    let sampler = samplerByPrior.get(prior);
+    if (!sampler) {
+      sampler = createPriorSampler(prior);
+      samplerByPrior.set(prior, sampler);
+    }
+    return sampler;
+  };
+  // Tests holding the same replicate array share one draw of the refit per quarter.
+  const replicateSets: (readonly EffectPrior[])[] = [];
+  const replicateSamplers: PriorSampler[][] = [];
+  const replicateSetOfTest = new Int32Array(testCount).fill(-1);
   for (const [index, test] of tests.entries()) {
     requirePositive(`tests[${index}].standardError`, test.standardError);
     standardErrors[index] = test.standardError;
-    let sampler = samplerByPrior.get(test.prior);
-    if (!sampler) {
-      sampler = createPriorSampler(test.prior);
-      samplerByPrior.set(test.prior, sampler);
+    samplers.push(samplerOf(test.prior));
+    const replicates = test.priorReplicates ?? null;
+    if (replicates === null) continue;
+    if (replicates.length === 0)
+      throw new StatsInputError(`tests[${index}].priorReplicates`, "at least one prior when given", 0);
+    let set = replicateSets.indexOf(replicates);
+    if (set < 0) {
+      set = replicateSets.length;
+      replicateSets.push(replicates);
+      replicateSamplers.push(replicates.map(samplerOf));
     }
-    samplers.push(sampler);
+    replicateSetOfTest[index] = set;
   }
+  const chosenReplicate = new Int32Array(replicateSets.length);
 
   const criticalValues = rules.map((rule, ruleIndex) => {
     const values = new Float64Array(testCount);
@@ -266,8 +299,12 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
     const end = Math.min(simulations, done + Math.max(0, Math.floor(count)));
     for (let r = done; r < end; r++) {
       accumulator.fill(0);
+      for (let set = 0; set < replicateSets.length; set++)
+        chosenReplicate[set] = random.integer(replicateSets[set]!.length);
       for (let index = 0; index < testCount; index++) {
-        const theta = samplers[index]!(random);
+        const set = replicateSetOfTest[index]!;
+        const theta =
+          set < 0 ? samplers[index]!(random) : replicateSamplers[set]![chosenReplicate[set]!]!(random);
         const estimate = theta + standardErrors[index]! * random.normal();
         const winSlot = theta > 0 ? realWinSlot : falseWinSlot;
         for (let rule = 0; rule < ruleCount; rule++) {
@@ -438,8 +475,15 @@ export function createBacklogSimulation(input: BacklogForecastInput): BacklogSim
       target,
       rules: ruleForecasts,
       differences,
-      assumptions: forecastAssumptions(simulations, input.expectations !== null),
-      cautions: forecastCautions,
+      assumptions: [
+        ...forecastAssumptions(simulations, input.expectations !== null),
+        ...(replicateSets.length === 0
+          ? []
+          : [
+              `${tests.filter((test) => test.priorReplicates).length} planned tests draw their prior from bootstrap refits (${replicateSets.map((set) => set.length).join(", ")} per family): each simulated quarter uses one refit per family, uniformly, for every rule; exact expectations average over the refits.`,
+            ]),
+      ],
+      cautions: replicateSets.length === 0 ? forecastCautions : forecastCautionsWithReplicates,
     };
   }
 
@@ -482,8 +526,39 @@ interface TestExpectation {
   readonly expectedShippedNoise: number | null;
 }
 
+/**
+ * Exact expectations of one test; with prior replicates, their average over the refits (the
+ * quarter's prior is each refit with equal probability, so expectations mix linearly).
+ */
 function testExpectation(
   expectations: ShippingExpectations | null,
+  test: ForecastPlannedTest,
+  threshold: number,
+): TestExpectation {
+  const replicates = test.priorReplicates ?? null;
+  if (!expectations || replicates === null)
+    return priorExpectation(expectations, test.prior, test, threshold);
+  const parts = replicates.map((prior) => priorExpectation(expectations, prior, test, threshold));
+  const average = (pick: (part: TestExpectation) => number | null): number | null => {
+    let total = 0;
+    for (const part of parts) {
+      const value = pick(part);
+      if (value === null) return null;
+      total += value;
+    }
+    return total / parts.length;
+  };
+  return {
+    probabilityOfShipping: average((part) => part.probabilityOfShipping),
+    probabilityOfRealWin: average((part) => part.probabilityOfRealWin),
+    expectedShippedEffect: average((part) => part.expectedShippedEffect),
+    expectedShippedNoise: average((part) => part.expectedShippedNoise),
+  };
+}
+
+function priorExpectation(
+  expectations: ShippingExpectations | null,
+  prior: EffectPrior,
   test: ForecastPlannedTest,
   threshold: number,
 ): TestExpectation {
@@ -495,15 +570,10 @@ function testExpectation(
       expectedShippedNoise: null,
     };
   return {
-    expectedShippedNoise: expectedShippedNoise(expectations, test.prior, test.standardError, threshold),
-    probabilityOfShipping: expectations.probabilityOfShipping(test.prior, test.standardError, threshold),
-    probabilityOfRealWin: expectations.probabilityOfShippingAbove(
-      test.prior,
-      test.standardError,
-      threshold,
-      0,
-    ),
-    expectedShippedEffect: expectations.expectedShippedEffect(test.prior, test.standardError, threshold),
+    expectedShippedNoise: expectedShippedNoise(expectations, prior, test.standardError, threshold),
+    probabilityOfShipping: expectations.probabilityOfShipping(prior, test.standardError, threshold),
+    probabilityOfRealWin: expectations.probabilityOfShippingAbove(prior, test.standardError, threshold, 0),
+    expectedShippedEffect: expectations.expectedShippedEffect(prior, test.standardError, threshold),
   };
 }
 

@@ -382,3 +382,82 @@ describe("forecastBacklog: common random numbers and seeds", () => {
     );
   });
 });
+
+describe("forecastBacklog: prior drawn from bootstrap refits, one per quarter (worked by hand)", () => {
+  // Two refits of a family's prior: A puts every effect at 0, B at 0.02; s = 0.01, alpha 0.05,
+  // so (as above) P(ship | A) = a = 1 - Phi(1.959964) = 0.025 and P(ship | B) = c = Phi(0.040036).
+  // Each quarter draws A or B with probability 1/2 for BOTH planned tests, so
+  //   E[shipped] = a + c, E[realized] = 0.02 c, and P(realized >= 0.04) = P(B, both ship) = c^2 / 2
+  // (with independent priors per test it would be (c / 2)^2: the shared draw is what is tested).
+  const point = (at: number): EffectPrior => ({
+    family: "grid",
+    components: [{ component: { kind: "point", at }, weight: 1 }],
+  });
+  const replicates = [point(0), point(0.02)];
+  const criticalValue = criticalValueForAlpha(0.05);
+  const a = normalSurvival(criticalValue);
+  const c = normalCdf(2 - criticalValue);
+  const simulations = 40_000;
+  const tests = ["one", "two"].map((name) => ({
+    name,
+    team: "growth",
+    family: "conversion",
+    prior: point(0.01),
+    priorReplicates: replicates,
+    standardError: 0.01,
+  }));
+  const forecast = forecastBacklog({
+    tests,
+    rules: [{ label: "alpha=0.05", criticalValue }],
+    simulations,
+    seed: 11,
+    target: 0.04,
+  });
+  const rule = forecast.rules[0]!;
+
+  it("mixes the refits in the exact expectations and shares one refit per quarter", () => {
+    const exact = { relative: 1e-9 };
+    expectClose("expected shipped", {}, rule.shipped.expected!, a + c, exact);
+    expectClose("expected realWins", {}, rule.realWins.expected!, c, exact);
+    expectClose("expected realized", {}, rule.realizedLift.expected!, 0.02 * c, exact);
+    // E[(y - theta) 1{ship}] = s^2 f(t): the average of the two point masses' normal densities at t.
+    const threshold = criticalValue * 0.01;
+    const density = (at: number) =>
+      Math.exp(-0.5 * ((threshold - at) / 0.01) ** 2) / (0.01 * Math.sqrt(2 * Math.PI));
+    expectClose(
+      "expected gap",
+      {},
+      rule.liftGap.expected!,
+      2 * 0.01 ** 2 * 0.5 * (density(0) + density(0.02)),
+      exact,
+    );
+    expectWithinMonteCarlo("shipped", {}, rule.shipped, a + c);
+    expectWithinMonteCarlo("realized", {}, rule.realizedLift, 0.02 * c);
+    expectWithinMonteCarlo("gap", {}, rule.liftGap, rule.liftGap.expected!);
+    const both = (c * c) / 2;
+    expectClose("P(realized >= 0.04)", {}, rule.probabilityToReachTarget!.estimate, both, {
+      absolute: monteCarloMultiple * Math.sqrt((both * (1 - both)) / simulations),
+    });
+    expect(forecast.cautions.join(" ")).toMatch(/bootstrap refits/);
+    expect(forecast.assumptions.join(" ")).toMatch(
+      /2 planned tests draw their prior from bootstrap refits \(2 per family\)/,
+    );
+  });
+
+  it("leaves a forecast without refits as it was", () => {
+    const fixed = forecastBacklog({
+      tests: tests.map(({ priorReplicates: _, ...test }) => test),
+      rules: [{ label: "alpha=0.05", criticalValue }],
+      simulations: 500,
+      seed: 11,
+    });
+    const nullReplicates = forecastBacklog({
+      tests: tests.map((test) => ({ ...test, priorReplicates: null })),
+      rules: [{ label: "alpha=0.05", criticalValue }],
+      simulations: 500,
+      seed: 11,
+    });
+    expect(nullReplicates).toEqual(fixed);
+    expect(fixed.cautions.join(" ")).toMatch(/not carried into these ranges/);
+  });
+});
