@@ -63,8 +63,19 @@ describe("pages in a real browser", () => {
   it("the landing page links to the API reference", async () => {
     const { page, response, problems } = await openPage("/");
     expect(response?.status()).toBe(200);
-    await page.getByRole("link", { name: /API reference/i }).first().click();
+    await page
+      .getByRole("link", { name: /API reference/i })
+      .first()
+      .click();
     await page.waitForURL(/\/api\/reference/);
+    expect(problems).toEqual([]);
+    await page.close();
+  });
+
+  it("the landing page opens the web pages at sign-in", async () => {
+    const { page, problems } = await openPage("/");
+    await page.getByRole("link", { name: /Open plumbline/i }).click();
+    await page.waitForURL(/\/app\/sign-in/);
     expect(problems).toEqual([]);
     await page.close();
   });
@@ -81,7 +92,9 @@ describe("pages in a real browser", () => {
   it("a demo token reads the experiments through the API from the page's origin", async () => {
     const { page } = await openPage("/");
     const total = await page.evaluate(async (bearer) => {
-      const response = await fetch("/api/v1/experiments?limit=1", { headers: { Authorization: `Bearer ${bearer}` } });
+      const response = await fetch("/api/v1/experiments?limit=1", {
+        headers: { Authorization: `Bearer ${bearer}` },
+      });
       return ((await response.json()) as { total: number }).total;
     }, token);
     expect(total).toBeGreaterThan(500);
