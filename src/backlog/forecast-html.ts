@@ -185,7 +185,7 @@ function priorTable(report: ForecastReport): string {
     .map((source) => {
       const summary = summarizePrior(source.prior, { densityPoints: 2 });
       const size = (value: number | null) => (value === null ? "" : percent(value));
-      return `<tr><th>${escapeHtml(source.family)}</th><td class="text">${source.source === "fitted" ? `fitted to ${whole(source.observations)} results` : "assumed"}</td><td>${percent(summary.nullShare)}</td><td>${percent(summary.winRate)}</td><td>${percent(summary.lossRate)}</td><td>${size(summary.meanWinSize)}</td><td>${size(summary.meanLossSize)}</td></tr>`;
+      return `<tr><th>${escapeHtml(source.family)}</th><td class="text">${source.source === "fitted" ? `fitted to ${whole(source.observations)} results${source.bootstrapReplicates > 0 ? `, drawn from ${source.bootstrapReplicates} bootstrap refits` : ""}` : "assumed"}</td><td>${percent(summary.nullShare)}</td><td>${percent(summary.winRate)}</td><td>${percent(summary.lossRate)}</td><td>${size(summary.meanWinSize)}</td><td>${size(summary.meanLossSize)}</td></tr>`;
     })
     .join("\n");
   return `<h2>Priors of true effects</h2>

@@ -9,6 +9,7 @@ import { and, eq, isNotNull } from "drizzle-orm";
 import type { Database } from "../db/client.ts";
 import { experiments, metrics, results } from "../db/schema.ts";
 import { type AssumedPriorInput, assumedPrior } from "../stats/assumed-prior.ts";
+import { bootstrapPrior } from "../stats/bootstrap-prior.ts";
 import { normalSurvival } from "../stats/distributions.ts";
 import type { EffectPrior } from "../stats/effect-prior.ts";
 import { fitEffectPrior } from "../stats/fit-effect-prior.ts";
@@ -41,7 +42,18 @@ export interface WorkspaceForecastOptions {
   readonly fallbackPrior?: AssumedPriorInput | null;
   /** Needed by the `recommended` rule. */
   readonly economics?: Economics | null;
+  /**
+   * `fixed` (default): each fitted prior is taken as known. `bootstrap`: each simulated quarter
+   * draws the family's prior from bootstrap refits of the fit (src/stats/bootstrap-prior.ts).
+   */
+  readonly priorDraws?: PriorDraws;
+  /** Bootstrap refits per fitted family with priorDraws `bootstrap` (default 100). */
+  readonly bootstrapReplicates?: number;
 }
+
+export const priorDrawModes = ["fixed", "bootstrap"] as const;
+export type PriorDraws = (typeof priorDrawModes)[number];
+export const defaultBootstrapReplicates = 100;
 
 export interface FamilyPriorSource {
   readonly family: string;
@@ -50,6 +62,8 @@ export interface FamilyPriorSource {
   /** Results the prior was fitted to (0 for an assumed prior). */
   readonly observations: number;
   readonly logLik: number | null;
+  /** Bootstrap refits the forecast draws the prior from (0: the prior is taken as known). */
+  readonly bootstrapReplicates: number;
 }
 
 export interface PreparedForecast {
@@ -77,6 +91,13 @@ export async function prepareWorkspaceForecast(
     throw new ForecastSetupError("the workspace has no planned or running tests to forecast");
   const families = [...new Set(backlog.map((test) => test.metricFamily))].sort();
   const priors = new Map<string, FamilyPriorSource>();
+  const replicatesByFamily = new Map<string, readonly EffectPrior[]>();
+  const priorDraws = options.priorDraws ?? "fixed";
+  const replicateCount = options.bootstrapReplicates ?? defaultBootstrapReplicates;
+  if (priorDraws === "bootstrap" && (!Number.isInteger(replicateCount) || replicateCount < 2))
+    throw new ForecastSetupError(
+      `the number of bootstrap refits must be a whole number of at least 2; got ${replicateCount}`,
+    );
   const lacking: string[] = [];
   for (const family of families) {
     const needsFamilyPrior = backlog.some(
@@ -85,12 +106,18 @@ export async function prepareWorkspaceForecast(
     const observations = await familyObservations(db, workspaceId, family);
     if (observations.length >= minimumResultsToFit) {
       const fit = fitEffectPrior(observations);
+      if (priorDraws === "bootstrap")
+        replicatesByFamily.set(
+          family,
+          bootstrapPrior(observations, fit, { replicates: replicateCount, seed: options.seed }).priors,
+        );
       priors.set(family, {
         family,
         source: "fitted",
         prior: fit.prior,
         observations: observations.length,
         logLik: fit.logLik,
+        bootstrapReplicates: priorDraws === "bootstrap" ? replicateCount : 0,
       });
     } else if (options.fallbackPrior) {
       priors.set(family, {
@@ -99,6 +126,7 @@ export async function prepareWorkspaceForecast(
         prior: assumedPrior(options.fallbackPrior),
         observations: 0,
         logLik: null,
+        bootstrapReplicates: 0,
       });
     } else if (needsFamilyPrior) lacking.push(`${family} (${observations.length} results)`);
   }
@@ -112,16 +140,21 @@ export async function prepareWorkspaceForecast(
     if (test.plannedStandardError === null)
       throw new ForecastSetupError(`planned test "${test.key}" has no planned standard error`);
     let prior: EffectPrior;
+    let priorReplicates: readonly EffectPrior[] | null = null;
     if (test.priorOverride !== null) {
       const overrideKey = JSON.stringify(test.priorOverride);
       prior = overridePriors.get(overrideKey) ?? assumedPrior(test.priorOverride);
       overridePriors.set(overrideKey, prior);
-    } else prior = priors.get(test.metricFamily)!.prior;
+    } else {
+      prior = priors.get(test.metricFamily)!.prior;
+      priorReplicates = replicatesByFamily.get(test.metricFamily) ?? null;
+    }
     return {
       name: test.key,
       team: test.team ?? "(no team)",
       family: test.metricFamily,
       prior,
+      ...(priorReplicates === null ? {} : { priorReplicates }),
       standardError: test.plannedStandardError,
     };
   });
@@ -156,7 +189,7 @@ export async function prepareWorkspaceForecast(
     "Each planned test's SE follows statistics.md section 7: n per arm (or traffic x days / arms), sqrt(2 (1-p) / (n p)) on a baseline rate, (sd/m) sqrt(2/n) on a mean, or the SE stated.",
     ...[...priors.values()].map((source) =>
       source.source === "fitted"
-        ? `Family ${source.family}: prior fitted (${source.prior.family}) to ${source.observations} primary results of the history (A/A tests and sample-ratio-mismatch flags left out).`
+        ? `Family ${source.family}: prior fitted (${source.prior.family}) to ${source.observations} primary results of the history (A/A tests and sample-ratio-mismatch flags left out)${source.bootstrapReplicates > 0 ? `; each simulated quarter draws it from ${source.bootstrapReplicates} bootstrap refits (resampled results, seed ${options.seed})` : ""}.`
         : `Family ${source.family}: too little history, the assumed prior given is used.`,
     ),
     ...(overridePriors.size > 0

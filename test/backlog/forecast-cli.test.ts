@@ -212,6 +212,11 @@ describe("plumbline forecast --plan", () => {
     expect((await cli(["forecast", "--plan", plan(), "--bogus"])).code).toBe(2);
     expect((await cli(["forecast", "--plan", plan()])).code).toBe(2);
     expect((await cli(["forecast", "--plan", plan(), ...prior, "--rule", "strict"])).code).toBe(2);
+    const bootstrapPlan = await cli(["forecast", "--plan", plan(), ...prior, "--prior-draws", "bootstrap"]);
+    expect(bootstrapPlan.code).toBe(2);
+    expect(bootstrapPlan.io.stderr.join("\n")).toMatch(/needs a workspace/);
+    expect((await cli(["forecast", "--plan", plan(), ...prior, "--prior-draws", "wide"])).code).toBe(2);
+    expect((await cli(["forecast", "--plan", plan(), ...prior, "--bootstrap", "50"])).code).toBe(2);
   });
 });
 
@@ -280,6 +285,18 @@ describe("plumbline backlog and forecast --workspace", () => {
     ])
       expect(page, section).toContain(section);
     for (const key of ["express-pay", "typo-search", "bundles"]) expect(page).toContain(`<th>${key}</th>`);
+  });
+
+  it("carries the fitted prior's uncertainty with --prior-draws bootstrap", async () => {
+    const args = ["forecast", "--workspace", "Larkspur Outfitters", "--sims", "500", "--json"];
+    const result = await cli([...args, "--prior-draws", "bootstrap", "--bootstrap", "30"]);
+    expect(result.code).toBe(0);
+    const report = result.json();
+    expect(report.priors[0]).toMatchObject({ family: "conversion", bootstrapReplicates: 30 });
+    expect(report.cautions.join(" ")).toMatch(/drawn from bootstrap refits/);
+    const fixed = (await cli(args)).json();
+    expect(fixed.priors[0].bootstrapReplicates).toBe(0);
+    expect(fixed.cautions.join(" ")).toMatch(/not carried into these ranges/);
   });
 
   it("says what is missing when a family has too little history", async () => {

@@ -6,6 +6,7 @@ import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { savePlannedTest } from "../../src/backlog/planned-tests.ts";
 import { ForecastSetupError, prepareWorkspaceForecast } from "../../src/backlog/workspace-forecast.ts";
 import { experiments, metrics, results } from "../../src/db/schema.ts";
+import { forecastBacklog } from "../../src/stats/forecast-backlog.ts";
 import { criticalValueForAlpha } from "../../src/stats/forecast-rule.ts";
 import { optimizeDefaults } from "../../src/stats/optimize-defaults.ts";
 import { createRandom } from "../../src/stats/random.ts";
@@ -100,5 +101,31 @@ describe("prepareWorkspaceForecast", () => {
     await expect(
       prepareWorkspaceForecast(handle.db, workspaceId, { rules: [{ kind: "recommended" }], seed: 3 }),
     ).rejects.toThrow(ForecastSetupError);
+  });
+
+  it("draws each quarter's prior from bootstrap refits of the fit when asked", async () => {
+    const prepared = await prepareWorkspaceForecast(handle.db, workspaceId, {
+      rules: [{ kind: "current" }],
+      seed: 3,
+      simulations: 500,
+      priorDraws: "bootstrap",
+      bootstrapReplicates: 20,
+    });
+    expect(prepared.priors[0]).toMatchObject({ source: "fitted", bootstrapReplicates: 20 });
+    const [first, second] = prepared.input.tests;
+    expect(first!.priorReplicates).toHaveLength(20);
+    // One array per family, so that the family's tests share the quarter's refit.
+    expect(second!.priorReplicates).toBe(first!.priorReplicates);
+    expect(prepared.assumptions.join(" ")).toMatch(/draws it from 20 bootstrap refits/);
+    const forecast = forecastBacklog(prepared.input);
+    expect(forecast.cautions.join(" ")).toMatch(/drawn from bootstrap refits/);
+    await expect(
+      prepareWorkspaceForecast(handle.db, workspaceId, {
+        rules: [{ kind: "current" }],
+        seed: 3,
+        priorDraws: "bootstrap",
+        bootstrapReplicates: 1,
+      }),
+    ).rejects.toThrow(/at least 2/);
   });
 });

@@ -9,7 +9,12 @@ import { renderForecastHtml } from "../../backlog/forecast-html.ts";
 import { forecastReport } from "../../backlog/forecast-report.ts";
 import { parseRuleSpec, type RuleSpec } from "../../backlog/forecast-rules.ts";
 import { runForecastInSteps } from "../../backlog/run-forecast-in-steps.ts";
-import { ForecastSetupError, prepareWorkspaceForecast } from "../../backlog/workspace-forecast.ts";
+import {
+  defaultBootstrapReplicates,
+  ForecastSetupError,
+  prepareWorkspaceForecast,
+  priorDrawModes,
+} from "../../backlog/workspace-forecast.ts";
 import { defaultForecastSimulations, storedFiguresPerQuarter } from "../../stats/forecast-backlog.ts";
 import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
@@ -60,6 +65,17 @@ const ForecastRequestSchema = z
       .nullable()
       .optional()
       .openapi({ description: "Needed by the recommended rule" }),
+    priorDraws: z.enum(priorDrawModes).default("fixed").openapi({
+      description:
+        "fixed: fitted priors taken as known; bootstrap: each simulated quarter draws the family's prior from bootstrap refits of the fit",
+    }),
+    bootstrap: z
+      .number()
+      .int()
+      .min(2)
+      .max(1000)
+      .default(defaultBootstrapReplicates)
+      .openapi({ description: "Bootstrap refits per fitted family with priorDraws bootstrap" }),
     format: z.enum(["json", "html"]).default("json"),
   })
   .openapi("ForecastRequest");
@@ -151,6 +167,8 @@ export function forecastRoutes({ db }: AppDeps): ApiRouter {
           target: body.target ?? null,
           fallbackPrior: body.fallbackPrior ?? null,
           economics: body.economics ?? null,
+          priorDraws: body.priorDraws,
+          bootstrapReplicates: body.bootstrap,
         });
       } catch (error) {
         if (error instanceof ForecastSetupError) throw new ApiError(422, "unprocessable", error.message);

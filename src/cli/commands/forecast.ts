@@ -11,7 +11,12 @@ import { type ForecastReport, forecastReport } from "../../backlog/forecast-repo
 import { parseRuleSpec, type RuleSpec } from "../../backlog/forecast-rules.ts";
 import { readPlanFile } from "../../backlog/read-plan-file.ts";
 import { runForecastInSteps } from "../../backlog/run-forecast-in-steps.ts";
-import { ForecastSetupError, prepareWorkspaceForecast } from "../../backlog/workspace-forecast.ts";
+import {
+  ForecastSetupError,
+  type PriorDraws,
+  prepareWorkspaceForecast,
+  priorDrawModes,
+} from "../../backlog/workspace-forecast.ts";
 import { ConfigError, openDatabaseFromEnv } from "../../config.ts";
 import { type AssumedPriorInput, assumedPrior } from "../../stats/assumed-prior.ts";
 import { StatsInputError } from "../../stats/errors.ts";
@@ -28,6 +33,7 @@ const help = `Usage:
                      [--sims R] [--seed S] [--json] [--html OUT.html]
                      [--win-rate P --effect-scale S ...]   (assumed prior for families with little history)
                      [--value-per-lift V --launch-cost C]  (economics for --rule recommended)
+                     [--prior-draws fixed|bootstrap [--bootstrap B]]
   plumbline forecast --plan FILE.csv --win-rate P [--loss-rate Q] --effect-scale S
                      [--prior-shape normal|fat] [--rule alpha=A]... [--target LIFT] [--sims R] [--seed S]
                      [--json] [--html OUT.html]
@@ -36,7 +42,10 @@ Simulates R quarters (default ${defaultForecastSimulations}): each planned test'
 its prior, its estimate around it with the planned SE, and it ships when the estimate clears the
 rule. Several --rule flags are compared on the same draws; the first is the headline.
 A plan file has columns name, se, or name, n_per_arm, baseline (a rate), or name, n_per_arm, mean,
-sd; team is optional. Lifts are relative (0.02 or 2% is +2 %). The seed is echoed (default 1).`;
+sd; team is optional. Lifts are relative (0.02 or 2% is +2 %). The seed is echoed (default 1).
+--prior-draws bootstrap draws each simulated quarter's fitted prior from B bootstrap refits of the
+fit (default 100), so the ranges carry the uncertainty of the fitted priors; fixed (the default)
+takes them as known.`;
 
 export async function run(args: string[], io: CommandIo): Promise<number> {
   let values: Record<string, string | boolean | string[] | undefined>;
@@ -60,6 +69,8 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
         "prior-shape": { type: "string" },
         "value-per-lift": { type: "string" },
         "launch-cost": { type: "string" },
+        "prior-draws": { type: "string" },
+        bootstrap: { type: "string" },
         help: { type: "boolean", short: "h" },
       },
     }));
@@ -99,6 +110,7 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
     "effect-scale",
     "value-per-lift",
     "launch-cost",
+    "bootstrap",
   ]) {
     const value = number(flag);
     if (typeof value === "object") return usageError(value.error);
@@ -113,6 +125,17 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
   const shape = values["prior-shape"] as string | undefined;
   if (shape !== undefined && shape !== "normal" && shape !== "fat")
     return usageError(`--prior-shape must be normal or fat; got "${shape}"`);
+  const priorDraws = values["prior-draws"] as string | undefined;
+  if (priorDraws !== undefined && !(priorDrawModes as readonly string[]).includes(priorDraws))
+    return usageError(`--prior-draws must be fixed or bootstrap; got "${priorDraws}"`);
+  const bootstrapReplicates = flags["bootstrap"];
+  if (
+    bootstrapReplicates !== undefined &&
+    (!Number.isInteger(bootstrapReplicates) || bootstrapReplicates < 2)
+  )
+    return usageError(`--bootstrap must be a whole number of at least 2; got ${values.bootstrap}`);
+  if (bootstrapReplicates !== undefined && priorDraws !== "bootstrap")
+    return usageError("--bootstrap B goes with --prior-draws bootstrap");
   const priorGiven = flags["win-rate"] !== undefined || flags["effect-scale"] !== undefined;
   if (priorGiven && (flags["win-rate"] === undefined || flags["effect-scale"] === undefined))
     return usageError("an assumed prior needs both --win-rate and --effect-scale");
@@ -141,6 +164,10 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
       if (!assumed) return usageError("--plan needs an assumed prior: --win-rate P --effect-scale S");
       if (rules.some((spec) => spec.kind === "recommended"))
         return usageError("--rule recommended needs a workspace; with --plan use current or alpha=A");
+      if (priorDraws === "bootstrap")
+        return usageError(
+          "--prior-draws bootstrap needs a workspace: an assumed prior has no fit to resample",
+        );
       let content: string;
       try {
         content = readFileSync(plan, "utf8");
@@ -179,7 +206,9 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
         { onProgress: progress },
       );
       report = forecastReport(forecast, {
-        priors: [{ family: "plan", source: "assumed", prior, observations: 0, logLik: null }],
+        priors: [
+          { family: "plan", source: "assumed", prior, observations: 0, logLik: null, bootstrapReplicates: 0 },
+        ],
         rules: rules.map((spec) =>
           spec.kind === "alpha"
             ? {
@@ -211,6 +240,8 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
           target: flags["target"] ?? null,
           fallbackPrior: assumed,
           economics,
+          ...(priorDraws === undefined ? {} : { priorDraws: priorDraws as PriorDraws }),
+          ...(bootstrapReplicates === undefined ? {} : { bootstrapReplicates }),
         });
         const forecast = await runForecastInSteps(prepared.input, { onProgress: progress });
         report = forecastReport(forecast, {
