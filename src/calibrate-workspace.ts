@@ -9,6 +9,7 @@
 import { and, eq } from "drizzle-orm";
 import type { Database } from "./db/client.ts";
 import { experiments, metrics, results } from "./db/schema.ts";
+import { familyObservations } from "./history/family-observations.ts";
 import { type AssumedPriorInput, assumedPrior, type PriorShape } from "./stats/assumed-prior.ts";
 import { type CalibrationReport, type CurrentDesign, calibrateDefaults } from "./stats/calibrate-defaults.ts";
 import { type PriorVariant, transformPrior } from "./stats/defaults-sensitivity.ts";
@@ -60,29 +61,6 @@ export class CalibrationSetupError extends Error {
     super(message);
     this.name = "CalibrationSetupError";
   }
-}
-
-/** Primary results of a metric family, without A/A tests and SRM-flagged results. */
-export async function familyObservations(
-  db: Database,
-  workspaceId: number,
-  family: string,
-): Promise<{ y: number; s: number }[]> {
-  const rows = await db
-    .select({ y: results.lift, s: results.liftSe })
-    .from(results)
-    .innerJoin(metrics, eq(results.metricId, metrics.id))
-    .innerJoin(experiments, eq(results.experimentId, experiments.id))
-    .where(
-      and(
-        eq(metrics.workspaceId, workspaceId),
-        eq(metrics.family, family),
-        eq(results.isPrimary, true),
-        eq(results.srmFlagged, false),
-        eq(experiments.isAa, false),
-      ),
-    );
-  return rows.filter((row) => Number.isFinite(row.y) && row.s > 0);
 }
 
 /** Medians of the planned alpha, power, MDE and n per arm of the workspace's experiments (A/A left out). */

@@ -7,7 +7,8 @@
  */
 import { and, eq, isNotNull } from "drizzle-orm";
 import type { Database } from "../db/client.ts";
-import { experiments, metrics, results } from "../db/schema.ts";
+import { experiments } from "../db/schema.ts";
+import { familyObservations } from "../history/family-observations.ts";
 import { type AssumedPriorInput, assumedPrior } from "../stats/assumed-prior.ts";
 import { bootstrapPrior } from "../stats/bootstrap-prior.ts";
 import { normalSurvival } from "../stats/distributions.ts";
@@ -209,29 +210,6 @@ export async function prepareWorkspaceForecast(
     rules: described,
     assumptions,
   };
-}
-
-/** Primary results of a metric family, without A/A tests and SRM-flagged results. */
-async function familyObservations(
-  db: Database,
-  workspaceId: number,
-  family: string,
-): Promise<{ y: number; s: number }[]> {
-  const rows = await db
-    .select({ y: results.lift, s: results.liftSe })
-    .from(results)
-    .innerJoin(metrics, eq(results.metricId, metrics.id))
-    .innerJoin(experiments, eq(results.experimentId, experiments.id))
-    .where(
-      and(
-        eq(metrics.workspaceId, workspaceId),
-        eq(metrics.family, family),
-        eq(results.isPrimary, true),
-        eq(results.srmFlagged, false),
-        eq(experiments.isAa, false),
-      ),
-    );
-  return rows.filter((row) => Number.isFinite(row.y) && row.s > 0);
 }
 
 async function currentPlannedAlpha(
