@@ -18,7 +18,10 @@
  * - many columns (a fine theta grid) start on an evenly spread subset, any row the start leaves
  *   unexplained gets its best column added, and the QP is solved in Jacobi-scaled variables;
  * - with more than largeProblemRows rows and no starting point, a deterministic every-m-th-row
- *   subsample is solved first and warm-starts the full problem.
+ *   subsample (20,000 rows, itself warm-started from a 5,000-row one) is solved first and
+ *   warm-starts the full problem;
+ * - an accepted step updates the fitted values as u + alpha L p, recomputed only when a weight
+ *   is clamped or zeroed.
  * Convergence: max_k d_k <= 1 + tolerance, d_k = (1/A)(sum_i a_i L_ik/(Lw)_i + c_k/w_k) at
  * w = x / sum(x); d_k <= 1 for all k are the KKT conditions of the concave problem.
  * Cost: O(N K) per iteration for the gradient plus O(N |C|^2) for the Hessian; memory O(N + K^2)
@@ -57,6 +60,7 @@ export const defaultSolverTolerance = 1e-8;
 export const defaultSolverIterations = 500;
 export const largeProblemRows = 60_000;
 const subsampleTargetRows = 20_000;
+const coarseSubsampleRows = 5_000;
 const subsampleTolerance = 1e-4;
 
 // Armijo sufficient-decrease constant and step reduction (the paper's defaults are 0.01 and 0.75).
@@ -83,22 +87,49 @@ export function solveMixtureWeights(
 
   let start = options.initialWeights;
   if (start === undefined && rows.length > largeProblemRows) {
-    const stride = Math.ceil(rows.length / subsampleTargetRows);
-    const count = Math.ceil(rows.length / stride);
-    const subRows = new Int32Array(count);
-    const subWeights = new Float64Array(count);
-    for (let r = 0; r < count; r++) {
-      subRows[r] = rows[r * stride] as number;
-      subWeights[r] = rowWeights[r * stride] as number;
-    }
-    // Scale the penalty so that it keeps the same weight relative to the data as in the full problem.
-    const scaledPenalty = penalty.map((value) => (value * count) / rows.length);
-    start = solveMixtureWeights(
-      { matrix, rows: subRows, rowWeights: subWeights, penalty: scaledPenalty },
-      { tolerance: subsampleTolerance, maxIterations },
+    // Two coarse stages: the first iterations (all columns in the Hessian) run on the smallest
+    // subsample, the middle one settles the support, and the full problem only polishes.
+    const middle = subsample(rows, rowWeights, penalty, subsampleTargetRows);
+    const small = subsample(middle.rows, middle.rowWeights, middle.penalty, coarseSubsampleRows);
+    const coarse = solve(
+      matrix,
+      small.rows,
+      small.rowWeights,
+      small.penalty,
+      undefined,
+      subsampleTolerance,
+      maxIterations,
+    );
+    start = solve(
+      matrix,
+      middle.rows,
+      middle.rowWeights,
+      middle.penalty,
+      coarse.weights,
+      subsampleTolerance,
+      maxIterations,
     ).weights;
   }
   return solve(matrix, rows, rowWeights, penalty, start, tolerance, maxIterations);
+}
+
+/** Every m-th row (deterministic), with the penalty scaled to keep its weight relative to the data. */
+function subsample(
+  rows: Int32Array,
+  rowWeights: Float64Array,
+  penalty: Float64Array,
+  target: number,
+): { rows: Int32Array; rowWeights: Float64Array; penalty: Float64Array } {
+  const stride = Math.ceil(rows.length / target);
+  const count = Math.ceil(rows.length / stride);
+  const subRows = new Int32Array(count);
+  const subWeights = new Float64Array(count);
+  for (let r = 0; r < count; r++) {
+    subRows[r] = rows[r * stride] as number;
+    subWeights[r] = rowWeights[r * stride] as number;
+  }
+  const scaledPenalty = penalty.map((value) => (value * count) / rows.length);
+  return { rows: subRows, rowWeights: subWeights, penalty: scaledPenalty };
 }
 
 function solve(
@@ -235,8 +266,9 @@ function solve(
     accumulateDirection(values, columns, rows, workingIndex, step, direction);
     let alpha = 1;
     let accepted = false;
+    let trial = Number.POSITIVE_INFINITY;
     for (; alpha >= smallestStep; alpha *= stepReduction) {
-      const trial = objectiveAlong(
+      trial = objectiveAlong(
         fitted,
         direction,
         alpha,
@@ -254,16 +286,28 @@ function solve(
     }
     if (!accepted) break;
     let sum = 0;
+    // The fitted values and objective of the line search stay valid unless a weight is clamped
+    // or zeroed below (then they are recomputed): this saves a pass over the matrix and N logs.
+    let moved = true;
     for (let j = 0; j < size; j++) {
       const k = workingIndex[j] as number;
-      x[k] =
-        alpha === 1 ? (target[j] as number) : Math.max(0, (x[k] as number) + alpha * (step[j] as number));
+      const value = (x[k] as number) + alpha * (step[j] as number);
+      if (!(value > 0) && value !== 0) moved = false;
+      x[k] = alpha === 1 ? (target[j] as number) : Math.max(0, value);
       sum += x[k] as number;
     }
     for (let k = 0; k < columns; k++)
-      if ((penalty[k] as number) === 0 && (x[k] as number) < zeroShare * sum) x[k] = 0;
-    if (!computeFitted(values, columns, rows, x, fitted)) break;
-    objective = objectiveAt(fitted, rowWeights, penalty, x, totalWeight, 0, direction);
+      if ((penalty[k] as number) === 0 && (x[k] as number) > 0 && (x[k] as number) < zeroShare * sum) {
+        x[k] = 0;
+        moved = false;
+      }
+    if (moved) {
+      for (let r = 0; r < rowCount; r++) fitted[r] = (fitted[r] as number) + alpha * (direction[r] as number);
+      objective = trial;
+    } else {
+      if (!computeFitted(values, columns, rows, x, fitted)) break;
+      objective = objectiveAt(fitted, rowWeights, penalty, x, totalWeight, 0, direction);
+    }
   }
   let total = 0;
   for (let k = 0; k < columns; k++) total += x[k] as number;
