@@ -26,12 +26,7 @@ export class ApiError extends Error {
   readonly status: 400 | 401 | 403 | 404 | 409 | 413 | 422 | 500;
   readonly code: ErrorCode;
   readonly issues: readonly ErrorIssue[] | undefined;
-  constructor(
-    status: ApiError["status"],
-    code: ErrorCode,
-    message: string,
-    issues?: readonly ErrorIssue[],
-  ) {
+  constructor(status: ApiError["status"], code: ErrorCode, message: string, issues?: readonly ErrorIssue[]) {
     super(message);
     this.name = "ApiError";
     this.status = status;

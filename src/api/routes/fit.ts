@@ -29,12 +29,9 @@ const FitRequestSchema = z
       .trim()
       .min(1)
       .openapi({ description: "The metric family to fit", example: "conversion" }),
-    family: z
-      .enum(["symmetric", "skewed", "grid", "auto"])
-      .default("auto")
-      .openapi({
-        description: "Prior family; auto picks the better of symmetric and skewed by log-likelihood",
-      }),
+    family: z.enum(["symmetric", "skewed", "grid", "auto"]).default("auto").openapi({
+      description: "Prior family; auto picks the better of symmetric and skewed by log-likelihood",
+    }),
     nullWeight: z
       .number()
       .min(1)
