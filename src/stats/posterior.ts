@@ -152,8 +152,12 @@ export function posteriorColumns(
     throw new StatsInputError("s", `of the same length as y (${y.length})`, s.length);
   const count = y.length;
   for (let i = 0; i < count; i++) {
-    requireFinite(`y[${i}]`, y[i] as number);
-    requirePositive(`s[${i}]`, s[i] as number);
+    const yi = y[i] as number;
+    const si = s[i] as number;
+    // The parameter name is only built for the offending entry (a million template strings cost more
+    // than the posteriors' arithmetic).
+    if (!Number.isFinite(yi)) requireFinite(`y[${i}]`, yi);
+    if (!(si > 0 && si < Number.POSITIVE_INFINITY)) requirePositive(`s[${i}]`, si);
   }
   const prepared = preparePrior(prior);
   const workspace = createWorkspace(prepared.count);
@@ -171,15 +175,7 @@ export function posteriorColumns(
   };
   for (let i = 0; i < count; i++) {
     fillPosterior(prepared, y[i] as number, s[i] as number, workspace);
-    const result = summarize(workspace, level, upperZ);
-    columns.mean[i] = result.mean;
-    columns.sd[i] = result.sd;
-    columns.lower[i] = result.lower;
-    columns.upper[i] = result.upper;
-    columns.probPositive[i] = result.probPositive;
-    columns.probNull[i] = result.probNull;
-    columns.probNegative[i] = result.probNegative;
-    columns.lfsr[i] = result.lfsr;
+    summarizeInto(workspace, level, upperZ, columns, i);
   }
   return columns;
 }
@@ -498,14 +494,66 @@ function mixtureLowerTail(workspace: Workspace, t: number): number {
   return total;
 }
 
-function mixtureDensity(workspace: Workspace, t: number): number {
+// The density of the last mixtureLowerTailAndDensity call (a second return value without an
+// allocation per Newton step).
+let lastDensity = 0;
+
+/** The mixture cdf at t, with the density at t left in lastDensity: one pass for a Newton step. */
+function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
   let total = 0;
-  for (let c = 0; c < workspace.count; c++)
-    total += (workspace.weight[c] as number) * componentDensity(workspace, c, t);
+  let density = 0;
+  for (let c = 0; c < workspace.count; c++) {
+    const weight = workspace.weight[c] as number;
+    if (workspace.kind[c] === kindNormal) {
+      const m = workspace.location[c] as number;
+      const sc = workspace.scale[c] as number;
+      const z = (t - m) / sc;
+      total += weight * normalCdf(z);
+      density += weight * (Math.exp(normalLogPdf(z)) / sc);
+    } else {
+      total += weight * componentLowerTail(workspace, c, t);
+      density += weight * componentDensity(workspace, c, t);
+    }
+  }
+  lastDensity = density;
   return total;
 }
 
 function summarize(workspace: Workspace, level: number, upperZ: number): Posterior {
+  const one = (): Float64Array => new Float64Array(1);
+  const columns: PosteriorColumns = {
+    level,
+    mean: one(),
+    sd: one(),
+    lower: one(),
+    upper: one(),
+    probPositive: one(),
+    probNull: one(),
+    probNegative: one(),
+    lfsr: one(),
+  };
+  summarizeInto(workspace, level, upperZ, columns, 0);
+  return {
+    mean: columns.mean[0] as number,
+    sd: columns.sd[0] as number,
+    lower: columns.lower[0] as number,
+    upper: columns.upper[0] as number,
+    level,
+    probPositive: columns.probPositive[0] as number,
+    probNull: columns.probNull[0] as number,
+    probNegative: columns.probNegative[0] as number,
+    lfsr: columns.lfsr[0] as number,
+  };
+}
+
+/** The summaries of the current posterior mixture, written at `index` of the columns. */
+function summarizeInto(
+  workspace: Workspace,
+  level: number,
+  upperZ: number,
+  out: PosteriorColumns,
+  index: number,
+): void {
   let mean = 0;
   let secondMoment = 0;
   let probPositive = 0;
@@ -541,22 +589,27 @@ function summarize(workspace: Workspace, level: number, upperZ: number): Posteri
   const variance = Math.max(0, secondMoment - mean * mean);
   const sd = Math.sqrt(variance);
   const tailShare = (1 - level) / 2;
-  const lower = mixtureQuantile(workspace, tailShare, mean - upperZ * sd, sd, pointMassOnly);
-  const upper = mixtureQuantile(workspace, 1 - tailShare, mean + upperZ * sd, sd, pointMassOnly);
+  // P(theta < 0) as summed above is the mixture cdf just below an atom at 0, which the quantile
+  // search needs; it is passed on rather than summed again.
+  const belowZero = probNegative;
+  out.lower[index] = mixtureQuantile(workspace, tailShare, mean - upperZ * sd, sd, pointMassOnly, belowZero);
+  out.upper[index] = mixtureQuantile(
+    workspace,
+    1 - tailShare,
+    mean + upperZ * sd,
+    sd,
+    pointMassOnly,
+    belowZero,
+  );
   probPositive = clampProbability(probPositive);
   probNegative = clampProbability(probNegative);
   probNull = clampProbability(probNull);
-  return {
-    mean,
-    sd,
-    lower,
-    upper,
-    level,
-    probPositive,
-    probNull,
-    probNegative,
-    lfsr: clampProbability(Math.min(probPositive + probNull, probNegative + probNull)),
-  };
+  out.mean[index] = mean;
+  out.sd[index] = sd;
+  out.probPositive[index] = probPositive;
+  out.probNull[index] = probNull;
+  out.probNegative[index] = probNegative;
+  out.lfsr[index] = clampProbability(Math.min(probPositive + probNull, probNegative + probNull));
 }
 
 function clampProbability(value: number): number {
@@ -573,6 +626,7 @@ function mixtureQuantile(
   start: number,
   spread: number,
   pointMassOnly: boolean,
+  belowZero: number,
 ): number {
   const count = workspace.count;
   if (pointMassOnly) {
@@ -607,7 +661,7 @@ function mixtureQuantile(
   for (let c = 0; c < count; c++) {
     if (workspace.kind[c] !== kindPoint) continue;
     const m = workspace.location[c] as number;
-    const below = mixtureLowerTail(workspace, m);
+    const below = m === 0 ? belowZero : mixtureLowerTail(workspace, m);
     if (below < p && p <= below + (workspace.weight[c] as number)) return m;
     if (p <= below) high = Math.min(high, m);
     else low = Math.max(low, m);
@@ -617,12 +671,12 @@ function mixtureQuantile(
   // (a quantile error of about 1e-13 / density) or a step below 1e-13 of the spread.
   const resolution = 1e-13 * Math.max(spread, 1e-300);
   for (let iteration = 0; iteration < 200; iteration++) {
-    const below = mixtureLowerTail(workspace, t);
+    const below = mixtureLowerTailAndDensity(workspace, t);
     const excess = below - p;
     if (Math.abs(excess) <= 1e-13) return t;
     if (excess < 0) low = t;
     else high = t;
-    const density = mixtureDensity(workspace, t);
+    const density = lastDensity;
     let next = density > 0 ? t - excess / density : Number.NaN;
     if (!(next > low && next < high)) next = 0.5 * (low + high);
     // Within 1e-8 of p, the Newton step's own error is of order 1e-16: take it and stop.
