@@ -11,7 +11,7 @@
  * by a scale mixture of half-normals (halfTAsHalfNormals), whose error is stated there.
  *
  * Reported per result: posterior mean (the shrunk lift), sd, the central credible interval at
- * `level` (quantiles (1-level)/2 and (1+level)/2 of the mixture, by safeguarded Newton; atoms
+ * `level` (quantiles (1-level)/2 and (1+level)/2 of the mixture, by safeguarded Halley steps; atoms
  * handled exactly), P(theta > 0), P(theta = 0), P(theta < 0), and the local false sign rate
  * lfsr = min(P(theta >= 0), P(theta <= 0)) (Stephens 2017, section 2.5).
  */
@@ -497,11 +497,13 @@ function mixtureLowerTail(workspace: Workspace, t: number): number {
 // The density of the last mixtureLowerTailAndDensity call (a second return value without an
 // allocation per Newton step).
 let lastDensity = 0;
+let lastDensitySlope = 0;
 
 /** The mixture cdf at t, with the density at t left in lastDensity: one pass for a Newton step. */
 function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
   let total = 0;
   let density = 0;
+  let slope = 0;
   for (let c = 0; c < workspace.count; c++) {
     const weight = workspace.weight[c] as number;
     if (workspace.kind[c] === kindNormal) {
@@ -509,13 +511,19 @@ function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
       const sc = workspace.scale[c] as number;
       const z = (t - m) / sc;
       total += weight * normalCdf(z);
-      density += weight * (Math.exp(normalLogPdf(z)) / sc);
+      const part = weight * (Math.exp(normalLogPdf(z)) / sc);
+      density += part;
+      slope -= (part * z) / sc;
     } else {
       total += weight * componentLowerTail(workspace, c, t);
-      density += weight * componentDensity(workspace, c, t);
+      const part = weight * componentDensity(workspace, c, t);
+      density += part;
+      if (part > 0)
+        slope -= (part * (t - (workspace.location[c] as number))) / (workspace.scale[c] as number) ** 2;
     }
   }
   lastDensity = density;
+  lastDensitySlope = slope;
   return total;
 }
 
@@ -618,7 +626,8 @@ function clampProbability(value: number): number {
 
 /**
  * inf { t : F(t) >= p } for the mixture cdf F: atoms first (p inside a jump returns the atom),
- * then safeguarded Newton on the continuous part, started at the normal approximation.
+ * then safeguarded Halley (or Newton) steps on the continuous part, started at the normal
+ * approximation.
  */
 function mixtureQuantile(
   workspace: Workspace,
@@ -677,7 +686,12 @@ function mixtureQuantile(
     if (excess < 0) low = t;
     else high = t;
     const density = lastDensity;
-    let next = density > 0 ? t - excess / density : Number.NaN;
+    // Halley's step (Newton's corrected by the density's slope) converges cubically, which saves
+    // about one cdf evaluation per quantile; it falls back to Newton's when the correction is large.
+    const newtonStep = excess / density;
+    const correction = 1 - (0.5 * newtonStep * lastDensitySlope) / density;
+    const halleyStep = correction > 0.5 && correction < 2 ? newtonStep / correction : newtonStep;
+    let next = density > 0 ? t - halleyStep : Number.NaN;
     if (!(next > low && next < high)) next = 0.5 * (low + high);
     // Within 1e-8 of p, the Newton step's own error is of order 1e-16: take it and stop.
     else if (Math.abs(excess) <= 1e-8) return next;
