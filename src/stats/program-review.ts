@@ -26,12 +26,8 @@ import { designAnalysis } from "./design-analysis.ts";
 import { normalCdf, normalQuantile } from "./distributions.ts";
 import { type EffectPrior, nullShare } from "./effect-prior.ts";
 import { requireFinite, requireOpenUnit, StatsInputError } from "./errors.ts";
-import {
-  type PosteriorColumns,
-  posteriorColumns,
-  posteriorMixture,
-  posteriorProbabilityAbove,
-} from "./posterior.ts";
+import { posteriorColumns, posteriorMixture } from "./posterior.ts";
+import { posteriorProbabilityColumns } from "./posterior-probabilities.ts";
 import { type PredictiveCalibration, predictiveCalibration } from "./predictive-calibration.ts";
 import type { RandomSource } from "./random.ts";
 import { shippingPartial } from "./shipping-expectation.ts";
@@ -297,10 +293,6 @@ interface ProgramSums {
   readonly missedWins: number;
 }
 
-function probabilityAtMost(prior: EffectPrior, y: number, s: number, threshold: number): number {
-  return 1 - posteriorProbabilityAbove(prior, y, s, threshold);
-}
-
 /** The tests of one decision in columns, prepared once for every prior evaluated on them. */
 interface TestColumns {
   readonly y: Float64Array;
@@ -311,45 +303,37 @@ function testColumns(tests: readonly ReviewTest[]): TestColumns {
   return { y: Float64Array.from(tests, (test) => test.y), s: Float64Array.from(tests, (test) => test.s) };
 }
 
-/** Posterior columns already computed for these tests under this prior (skips recomputing them). */
-interface KnownPosteriors {
-  readonly shipped: Pick<PosteriorColumns, "mean" | "probNull" | "probNegative">;
-  readonly notShipped: Pick<PosteriorColumns, "probPositive">;
+function sumOf(values: Float64Array): number {
+  let total = 0;
+  for (let i = 0; i < values.length; i++) total += values[i] as number;
+  return total;
 }
 
+/**
+ * The program sums under one prior, from the probabilities-only kernel (no credible intervals:
+ * the sums need only probabilities and means, and intervals are most of a posterior's cost).
+ */
 function programSums(
   prior: EffectPrior,
   shipped: TestColumns,
   notShipped: TestColumns,
   delta: number,
   practical: number | null,
-  known?: KnownPosteriors,
 ): ProgramSums {
-  let falseWins = 0;
-  let falseWinsPractical = 0;
-  let signErrors = 0;
-  let realizedSum = 0;
-  const shippedPosteriors = known?.shipped ?? posteriorColumns(prior, shipped.y, shipped.s);
-  for (let i = 0; i < shipped.y.length; i++) {
-    const y = shipped.y[i] as number;
-    const s = shipped.s[i] as number;
-    falseWins +=
-      delta === 0
-        ? (shippedPosteriors.probNull[i] as number) + (shippedPosteriors.probNegative[i] as number)
-        : probabilityAtMost(prior, y, s, delta);
-    if (practical !== null) falseWinsPractical += probabilityAtMost(prior, y, s, practical);
-    signErrors += shippedPosteriors.probNegative[i] as number;
-    realizedSum += shippedPosteriors.mean[i] as number;
-  }
-  let missedWins = 0;
-  const notShippedPosteriors =
-    delta === 0 ? (known?.notShipped ?? posteriorColumns(prior, notShipped.y, notShipped.s)) : null;
-  for (let i = 0; i < notShipped.y.length; i++) {
-    missedWins += notShippedPosteriors
-      ? (notShippedPosteriors.probPositive[i] as number)
-      : posteriorProbabilityAbove(prior, notShipped.y[i] as number, notShipped.s[i] as number, delta);
-  }
-  return { falseWins, falseWinsPractical, signErrors, realizedSum, missedWins };
+  const thresholds = practical === null ? [delta] : [delta, practical];
+  const shippedPosteriors = posteriorProbabilityColumns(prior, shipped.y, shipped.s, thresholds);
+  const notShippedPosteriors = posteriorProbabilityColumns(prior, notShipped.y, notShipped.s, [delta]);
+  const count = shipped.y.length;
+  const falseWins = count - sumOf(shippedPosteriors.probAbove[0] as Float64Array);
+  const falseWinsPractical =
+    practical === null ? 0 : count - sumOf(shippedPosteriors.probAbove[1] as Float64Array);
+  return {
+    falseWins,
+    falseWinsPractical,
+    signErrors: sumOf(shippedPosteriors.probNegative),
+    realizedSum: sumOf(shippedPosteriors.mean),
+    missedWins: sumOf(notShippedPosteriors.probAbove[0] as Float64Array),
+  };
 }
 
 function histogram(values: readonly number[], bins: number): HistogramBin[] {
@@ -425,6 +409,12 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
   const includedColumns = testColumns(included);
   const includedPosteriors = posteriorColumns(prior, includedColumns.y, includedColumns.s, level);
   const includedIndex = new Map(included.map((test, index) => [test, index]));
+  // P(theta > delta) for every included test in one batch (only needed when delta is not 0).
+  const includedAboveDelta =
+    delta === 0
+      ? null
+      : (posteriorProbabilityColumns(prior, includedColumns.y, includedColumns.s, [delta])
+          .probAbove[0] as Float64Array);
   for (const [index, test] of included.entries()) {
     const posterior = {
       mean: includedPosteriors.mean[index] as number,
@@ -434,7 +424,7 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
       lfsr: includedPosteriors.lfsr[index] as number,
     };
     const probabilityRealWin =
-      delta === 0 ? posterior.probPositive : posteriorProbabilityAbove(prior, test.y, test.s, delta);
+      includedAboveDelta === null ? posterior.probPositive : (includedAboveDelta[index] as number);
     const design =
       Number.isFinite(typicalRealWin) && typicalRealWin > 0
         ? designAnalysis({ effect: typicalRealWin, standardError: test.s, alpha })
@@ -509,18 +499,11 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
   // Headline sums under the fit and under each refit.
   const shippedColumns = testColumns(shipped);
   const notShippedColumns = testColumns(notShipped);
-  // The chosen prior's posteriors were computed above for every included test; reuse them.
-  const pick = (tests: readonly ReviewTest[], column: Float64Array) =>
-    Float64Array.from(tests, (test) => column[includedIndex.get(test) as number] as number);
-  const known: KnownPosteriors = {
-    shipped: {
-      mean: pick(shipped, includedPosteriors.mean),
-      probNull: pick(shipped, includedPosteriors.probNull),
-      probNegative: pick(shipped, includedPosteriors.probNegative),
-    },
-    notShipped: { probPositive: pick(notShipped, includedPosteriors.probPositive) },
-  };
-  const main = programSums(prior, shippedColumns, notShippedColumns, delta, practical, known);
+  const main = programSums(prior, shippedColumns, notShippedColumns, delta, practical);
+  const shippedMeans = Float64Array.from(
+    shipped,
+    (test) => includedPosteriors.mean[includedIndex.get(test) as number] as number,
+  );
   const refits = bootstrapPriors.map((each) =>
     programSums(each, shippedColumns, notShippedColumns, delta, practical),
   );
@@ -536,7 +519,7 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
 
   // Expected realized compounded: the product of (1 + E[theta | y]), a first-order approximation
   // (E prod != prod E when effects are uncertain; for lifts of a few percent the gap is negligible).
-  const realizedCompounded = known.shipped.mean.reduce((product, mean) => product * (1 + mean), 1) - 1;
+  const realizedCompounded = shippedMeans.reduce((product, mean) => product * (1 + mean), 1) - 1;
 
   const random = input.random;
   const frequentist = winnersCurseBias(
