@@ -589,7 +589,14 @@ function summarizeInto(
     mean += weight * componentMean;
     secondMoment += weight * (componentVariance + componentMean * componentMean);
     if (kind === kindPoint && componentMean === 0) probNull += weight;
-    else {
+    else if (kind === kindNormal) {
+      // One cdf call for both sides: the smaller tail is computed directly (full relative
+      // accuracy) and the larger side is its complement.
+      const z = componentMean / (workspace.scale[c] as number);
+      const smaller = normalCdf(-Math.abs(z));
+      probPositive += weight * (z > 0 ? 1 - smaller : smaller);
+      probNegative += weight * (z > 0 ? smaller : 1 - smaller);
+    } else {
       probPositive += weight * componentUpperTail(workspace, c, 0);
       probNegative += weight * componentLowerTail(workspace, c, 0);
     }
