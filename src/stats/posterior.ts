@@ -348,10 +348,15 @@ function fillPosterior(prior: PreparedPrior, y: number, s: number, workspace: Wo
     if (logJoint > largest) largest = logJoint;
   }
   let total = 0;
-  for (let c = 0; c < prior.count; c++) total += Math.exp((workspace.logLikelihood[c] as number) - largest);
+  // The scratch row now holds exp(log joint - largest), so that each exp is taken once.
+  for (let c = 0; c < prior.count; c++) {
+    const scaled = Math.exp((workspace.logLikelihood[c] as number) - largest);
+    workspace.logLikelihood[c] = scaled;
+    total += scaled;
+  }
   let count = 0;
   for (let c = 0; c < prior.count; c++) {
-    const share = Math.exp((workspace.logLikelihood[c] as number) - largest) / total;
+    const share = (workspace.logLikelihood[c] as number) / total;
     if (share < negligibleShare) continue;
     const kind = prior.kind[c] as number;
     const location = prior.location[c] as number;
