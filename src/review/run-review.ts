@@ -8,7 +8,18 @@ import type { Database } from "../db/client.ts";
 import { bootstrapPrior } from "../stats/bootstrap-prior.ts";
 import type { EffectPrior } from "../stats/effect-prior.ts";
 import { StatsInputError } from "../stats/errors.ts";
-import { type FitFamily, fitEffectPrior } from "../stats/fit-effect-prior.ts";
+import {
+  defaultNullWeight,
+  type FamilyFit,
+  type FitFamily,
+  fitEffectPrior,
+  fitOnMatrix,
+  type Observation,
+  observationColumns,
+  type PriorFit,
+} from "../stats/fit-effect-prior.ts";
+import { likelihoodMatrix } from "../stats/likelihood-matrix.ts";
+import { defaultThetaGridPointCount, thetaGridComponents } from "../stats/prior-grid.ts";
 import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
 import { createRandom } from "../stats/random.ts";
 import { readReviewData } from "./read-review-data.ts";
@@ -53,6 +64,15 @@ export const defaultBootstrapRefits = 100;
  */
 export const largeHistoryTests = 20_000;
 export const largeHistoryBootstrapRefits = 20;
+/** Grid points of the grid family's sensitivity row above largeHistoryTests tests. */
+export const largeHistoryGridPoints = 100;
+
+/** The grid family on a coarser grid of equally spaced points (the nonparametric MLE's support). */
+function coarseGridFit(observations: readonly Observation[], nullWeight: number): FamilyFit {
+  const data = observationColumns(observations);
+  const grid = thetaGridComponents(data, largeHistoryGridPoints);
+  return fitOnMatrix(likelihoodMatrix(data.y, data.s, grid), grid, "grid", nullWeight);
+}
 
 /** The settings a review ran with, resolved (stored with every saved review). */
 export interface ReviewSettings {
@@ -136,13 +156,26 @@ export async function runReview(
   progress(`fitting the prior to ${included.length} tests of "${data.family}"`);
   const observations = included.map((test) => ({ y: test.y, s: test.s }));
   const fitOptions = settings.nullWeight !== null ? { nullWeight: settings.nullWeight } : {};
-  const fit = fitEffectPrior(observations, { ...fitOptions, family: settings.priorFamily });
+  // A large history fits the grid sensitivity row on a coarser grid (its cost grows with
+  // tests x points); the grid is never the chosen family under "auto", so only that row moves.
+  const coarseGrid = included.length > largeHistoryTests;
+  const fitAlternative = (family: FitFamily): FamilyFit =>
+    family === "grid" && coarseGrid
+      ? coarseGridFit(observations, settings.nullWeight ?? defaultNullWeight)
+      : fitEffectPrior(observations, { ...fitOptions, family });
+  let fit: PriorFit;
+  if (settings.priorFamily === "auto" && coarseGrid) {
+    // The rule of fitEffectPrior's "auto": the better of symmetric and skewed by log-likelihood.
+    const symmetric = fitEffectPrior(observations, { ...fitOptions, family: "symmetric" });
+    const skewed = fitEffectPrior(observations, { ...fitOptions, family: "skewed" });
+    const chosen = skewed.logLik > symmetric.logLik ? skewed : symmetric;
+    fit = { ...chosen, alternatives: [symmetric, skewed, fitAlternative("grid")] };
+  } else fit = fitEffectPrior(observations, { ...fitOptions, family: settings.priorFamily });
   // Sensitivity: the other families, as fitted alongside ("auto") or fitted here.
   const alternatives =
     fit.alternatives ??
-    (["symmetric", "skewed", "grid"] as const)
-      .filter((family) => family !== fit.family)
-      .map((family) => fitEffectPrior(observations, { ...fitOptions, family }));
+    (["symmetric", "skewed", "grid"] as const).filter((family) => family !== fit.family).map(fitAlternative);
+  const gridRowCoarse = coarseGrid && fit.family !== "grid";
   const lowered =
     request.bootstrap === undefined &&
     included.length > largeHistoryTests &&
@@ -176,6 +209,11 @@ export async function runReview(
     extraAssumptions: [
       `Metric family "${data.family}": primary results only; the prior is fitted to all ${included.length} included tests of the family, the review covers the ${data.reviewedTests.length} tests that pass the filters${describeFilters(settings.filters)}.`,
       "Realized measurements: a holdout is preferred to a re-test, and a re-test to a post-launch read, when a test has several.",
+      ...(gridRowCoarse
+        ? [
+            `Sensitivity: the history has ${included.length} included tests (more than ${largeHistoryTests}), so the grid family's row is fitted on ${largeHistoryGridPoints} grid points instead of the default ${defaultThetaGridPointCount(included.length)} (its log-likelihood can be slightly lower than on the finer grid).`,
+          ]
+        : []),
       ...(lowered
         ? [
             `Bootstrap refits: the history has ${included.length} included tests (more than ${largeHistoryTests}), so the default of ${defaultBootstrapRefits} refits is lowered to ${largeHistoryBootstrapRefits} to keep the review fast; intervals from ${largeHistoryBootstrapRefits} refits have less precise ends. Ask for bootstrap=${defaultBootstrapRefits} to get the full number.`,
