@@ -4,7 +4,9 @@
  * <= 50 ms. Baseline in the same process: GET /api/health over the same HTTP connection path.
  * Two configurations are timed: the default review (prior family chosen by likelihood among all
  * families, 100 bootstrap refits) and the leanest one (one family, no bootstrap), so that the time
- * spent fitting priors shows apart from the review itself. Tests are simulated (70 % nulls, the
+ * spent fitting priors shows apart from the review itself. Above 20,000 included tests the default
+ * review takes 20 refits and fits the grid sensitivity row on 100 points (run-review.ts; both stated
+ * in the review's assumptions), so the default figure at 1e5 tests is for those settings. Tests are simulated (70 % nulls, the
  * rest N(0, 0.02^2), SE uniform on [0.005, 0.03]; shipped when z > 1.96), written with drizzle.
  * Run: npm run bench -- review   (PLUMBLINE_BENCH_REVIEW_TESTS=20000 for a shorter run)
  */
