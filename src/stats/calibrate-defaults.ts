@@ -224,7 +224,7 @@ export function calibrateDefaults(input: CalibrationInput): CalibrationReport {
       ? `Each of the ${arms - 1} treatment arms is a separate idea from the prior, compared with the control at the same ` +
         "threshold; every arm that passes ships; the test's value is the sum over arms (exact by linearity)."
       : "Two arms: one treatment against one control.",
-    `Power is P(ship | theta = mde) at mde = ${mde}${input.mde === undefined ? " (the prior's mean size of a real win)" : ""}.`,
+    `Power is P(ship | theta = mde) at mde = ${Number(mde.toPrecision(4))}${input.mde === undefined ? " (the prior's mean size of a real win)" : ""}.`,
     "falsePositiveRisk = P(theta <= 0 | shipped); exaggeration = E[y | shipped] / E[theta | shipped].",
     `Textbook design: alpha 0.05 two-sided, power 0.8 at the mde, n = s_unit^2 (z_0.975 + z_0.8)^2 / mde^2.`,
     `Search box: z* in [${bounds.minThreshold}, ${bounds.maxThreshold}], n per arm in [${bounds.minNPerArm}, ${bounds.maxNPerArm.toFixed(0)}] (runs of at most ${maxDays} days).`,

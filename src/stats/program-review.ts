@@ -569,7 +569,7 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
     `Wins ship on the upper tail of a two-sided test at alpha = ${alpha} (critical z = ${criticalZ.toFixed(4)}); Lee & Shen's bias uses that threshold for every test.`,
     `Left out: ${aaCount} A/A tests (used only for the pipeline checks), ${srmCount} with a sample ratio mismatch, ${missingSeCount} without a standard error.`,
     `Pending tests (${pending}) are neither shipped nor not shipped and only enter the per-test table.`,
-    `Typical real win = mean size of real wins under the prior, E[theta | theta > ${delta}] = ${typicalRealWin}; power and exaggeration per test are at that effect (Gelman & Carlin 2014).`,
+    `Typical real win = mean size of real wins under the prior, E[theta | theta > ${delta}] = ${Number(typicalRealWin.toPrecision(4))}; power and exaggeration per test are at that effect (Gelman & Carlin 2014).`,
     `Flags: early_stop = stopped before the planned sample; sample_ratio_mismatch = arm counts failed the allocation check; underpowered = power at the typical real win below ${underpoweredBelow}; extreme_claim = significant claim above ${extremeClaimMultiple} x the typical real win.`,
     `Intervals of program figures: ${Math.round(level * 100)} % percentile intervals over ${bootstrapPriors.length} priors refitted to bootstrap resamples of the tests${bootstrapPriors.length === 0 ? " (none requested: no intervals)" : ""}.`,
     "Compounded totals multiply (1 + lift); the expected realized compounded total multiplies (1 + posterior mean), a first-order approximation.",
