@@ -19,6 +19,7 @@ import { requiredRole, requireRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
+import { readUploadedFile, rejectedImportBody } from "../uploaded-file.ts";
 
 const PriorOverrideSchema = z
   .object({
@@ -373,50 +374,22 @@ export function backlogRoutes({ db }: AppDeps): ApiRouter {
       }),
       async (c) => {
         const auth = requireRole(c, "write");
-        const contentType = (c.req.header("content-type") ?? "").toLowerCase();
-        let request: Parameters<typeof importBacklog>[1];
-        if (contentType.startsWith("application/json")) {
-          const body = c.req.valid("json") as z.infer<typeof BacklogImportBodySchema>;
-          request = {
-            workspaceId: auth.workspaceId,
-            tokenId: auth.tokenId,
-            fileName: body.fileName ?? null,
-            content: body.content,
-            dryRun: body.dryRun,
-            ...(body.format ? { format: body.format } : {}),
-          };
-        } else if (contentType.startsWith("text/csv")) {
-          const query = c.req.valid("query");
-          const content = await c.req.text();
-          if (content.trim() === "")
-            throw new ApiError(400, "validation_failed", "the CSV body is empty", [
-              { path: "body", message: "must contain the CSV file" },
-            ]);
-          request = {
-            workspaceId: auth.workspaceId,
-            tokenId: auth.tokenId,
-            fileName: query.fileName ?? null,
-            content,
-            format: "csv",
-            dryRun: query.dryRun ?? false,
-          };
-        } else
-          throw new ApiError(
-            400,
-            "bad_request",
-            "send the file as Content-Type: application/json or text/csv",
-          );
-        const imported = await importBacklog(db, request);
+        const upload = await readUploadedFile(
+          c.req.header("content-type"),
+          {
+            jsonBody: () => c.req.valid("json") as z.infer<typeof BacklogImportBodySchema>,
+            csvQuery: () => c.req.valid("query"),
+            text: () => c.req.text(),
+          },
+          "{fileName, content, format, dryRun}",
+        );
+        const imported = await importBacklog(db, {
+          workspaceId: auth.workspaceId,
+          tokenId: auth.tokenId,
+          ...upload.file,
+        });
         const report = { ...imported, errors: [...imported.errors] };
-        if (report.outcome === "rejected") {
-          const issues = report.errors.map((error) => ({
-            path: error.column ?? "",
-            message: error.message,
-            row: error.row,
-          }));
-          const message = `import rejected: ${issues.length} error${issues.length === 1 ? "" : "s"}; nothing was written`;
-          return c.json({ error: { code: "unprocessable" as const, message, issues }, report }, 422);
-        }
+        if (report.outcome === "rejected") return c.json(rejectedImportBody(report), 422);
         return c.json(report, 200);
       },
     );

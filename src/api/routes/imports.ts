@@ -13,6 +13,7 @@ import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses, PaginationQuerySchema, pageSchema } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
 import { ApiError } from "../errors.ts";
+import { readUploadedFile, rejectedImportBody } from "../uploaded-file.ts";
 
 const KindSchema = z.enum(["results", "realized"]).openapi({
   description: "results: the canonical results layout; realized: realized measurements after launch",
@@ -145,54 +146,25 @@ export function importsRoutes({ db }: AppDeps): ApiRouter {
       }),
       async (c) => {
         const auth = c.get("auth");
-        const contentType = (c.req.header("content-type") ?? "").toLowerCase();
-        let request: ImportRequest;
-        if (contentType.startsWith("application/json")) {
-          // The text/csv schema is documentation only; a JSON body has been validated as ImportBodySchema.
-          const body = c.req.valid("json") as z.infer<typeof ImportBodySchema>;
-          request = {
-            workspaceId: auth.workspaceId,
-            tokenId: auth.tokenId,
-            kind: body.kind,
-            fileName: body.fileName ?? null,
-            content: body.content,
-            dryRun: body.dryRun,
-            ...(body.format ? { format: body.format } : {}),
-          };
-        } else if (contentType.startsWith("text/csv")) {
-          const query = c.req.valid("query");
-          const content = await c.req.text();
-          if (content.trim() === "")
-            throw new ApiError(400, "validation_failed", "the CSV body is empty", [
-              { path: "body", message: "must contain the CSV file" },
-            ]);
-          request = {
-            workspaceId: auth.workspaceId,
-            tokenId: auth.tokenId,
-            kind: query.kind ?? "results",
-            fileName: query.fileName ?? null,
-            content,
-            format: "csv",
-            dryRun: query.dryRun ?? false,
-          };
-        } else {
-          throw new ApiError(
-            400,
-            "bad_request",
-            "send the import as Content-Type: application/json ({fileName, content, kind, dryRun}) or text/csv",
-          );
-        }
+        const upload = await readUploadedFile(
+          c.req.header("content-type"),
+          {
+            // The text/csv schema is documentation only; a JSON body has been validated as ImportBodySchema.
+            jsonBody: () => c.req.valid("json") as z.infer<typeof ImportBodySchema>,
+            csvQuery: () => c.req.valid("query"),
+            text: () => c.req.text(),
+          },
+          "{fileName, content, kind, dryRun}",
+        );
+        const request: ImportRequest = {
+          workspaceId: auth.workspaceId,
+          tokenId: auth.tokenId,
+          kind: upload.body?.kind ?? upload.query?.kind ?? "results",
+          ...upload.file,
+        };
         const imported = await importFile(db, request);
         const report = { ...imported, errors: [...imported.errors], notes: [...imported.notes] };
-        if (report.outcome === "rejected") {
-          const message = `import rejected: ${report.errors.length} error${report.errors.length === 1 ? "" : "s"}; nothing was written`;
-          const issues = report.errors.map((error) => ({
-            path: error.column ?? "",
-            message: error.message,
-            row: error.row,
-          }));
-          return c.json({ error: { code: "unprocessable" as const, message, issues }, report }, 422);
-        }
+        if (report.outcome === "rejected") return c.json(rejectedImportBody(report), 422);
         return c.json(report, 200);
       },
     )
