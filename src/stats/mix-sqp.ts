@@ -67,6 +67,9 @@ const subsampleTolerance = 1e-4;
 const sufficientDecrease = 0.01;
 const stepReduction = 0.5;
 const smallestStep = 1e-12;
+// Relative rounding error allowed in the objective: N logs summed in double precision lose up to
+// about sqrt(N) ulps each way (common practice for error bounds of long sums).
+const objectiveNoise = 1e-12;
 // Weights below this share of the total are set to zero: they cannot matter to the likelihood and
 // would keep their columns in the Hessian.
 const zeroShare = 1e-13;
@@ -267,6 +270,10 @@ function solve(
     let alpha = 1;
     let accepted = false;
     let trial = Number.POSITIVE_INFINITY;
+    // Near the optimum the predicted decrease falls below the rounding error of the objective (a
+    // sum of N logs), where the Armijo test only compares noise and would shrink a good Newton
+    // step to nothing. There the full step is taken when its objective is level within that noise.
+    const noise = objectiveNoise * Math.max(1, Math.abs(objective));
     for (; alpha >= smallestStep; alpha *= stepReduction) {
       trial = objectiveAlong(
         fitted,
@@ -279,7 +286,10 @@ function solve(
         step,
         totalWeight,
       );
-      if (trial <= objective + sufficientDecrease * alpha * slope) {
+      if (
+        trial <= objective + sufficientDecrease * alpha * slope ||
+        (alpha === 1 && -slope <= noise && trial <= objective + noise)
+      ) {
         accepted = true;
         break;
       }
