@@ -67,8 +67,8 @@ const subsampleTolerance = 1e-4;
 const sufficientDecrease = 0.01;
 const stepReduction = 0.5;
 const smallestStep = 1e-12;
-// Relative rounding error allowed in the objective: N logs summed in double precision lose up to
-// about sqrt(N) ulps each way (common practice for error bounds of long sums).
+// Relative rounding error allowed in the objective: a sum of N logs in double precision typically
+// loses about sqrt(N) ulps (common practice for long sums); 1e-12 covers that up to N of about 1e7.
 const objectiveNoise = 1e-12;
 // Weights below this share of the total are set to zero: they cannot matter to the likelihood and
 // would keep their columns in the Hessian.
