@@ -73,27 +73,32 @@ const codyQ = [
  * keeps full relative accuracy for large |x| (Cody's device).
  */
 function logSmallerTail(absoluteX: number): number {
-  const parts = smallerTailParts(absoluteX);
-  if (parts === undefined) {
+  const ratio = tailRatio(absoluteX);
+  if (Number.isNaN(ratio)) {
     // Mills ratio asymptotic expansion (Abramowitz & Stegun 26.2.12); beyond 1e8 its first
     // terms are exact to machine precision and x^2 stays finite.
     const inverseSquare = 1 / (absoluteX * absoluteX);
     return -0.5 * absoluteX * absoluteX - logSqrtTwoPi - Math.log(absoluteX) + Math.log1p(-inverseSquare);
   }
-  return -0.5 * parts.rounded * parts.rounded - 0.5 * parts.remainder + Math.log(parts.ratio);
+  const rounded = Math.trunc(absoluteX * 16) / 16;
+  const remainder = (absoluteX - rounded) * (absoluteX + rounded);
+  return -0.5 * rounded * rounded - 0.5 * remainder + Math.log(ratio);
 }
 
 /** Phi(-|x|) for |x| > 0.6745 without passing through a logarithm (keeps ~1 ulp). */
 function smallerTail(absoluteX: number): number {
-  const parts = smallerTailParts(absoluteX);
-  if (parts === undefined) return 0;
-  return Math.exp(-0.5 * parts.rounded * parts.rounded) * Math.exp(-0.5 * parts.remainder) * parts.ratio;
+  const ratio = tailRatio(absoluteX);
+  if (Number.isNaN(ratio)) return 0;
+  const rounded = Math.trunc(absoluteX * 16) / 16;
+  const remainder = (absoluteX - rounded) * (absoluteX + rounded);
+  return Math.exp(-0.5 * rounded * rounded) * Math.exp(-0.5 * remainder) * ratio;
 }
 
-function smallerTailParts(
-  absoluteX: number,
-): { readonly rounded: number; readonly remainder: number; readonly ratio: number } | undefined {
-  let ratio: number;
+/**
+ * Cody's rational factor r(|x|) of Phi(-|x|) = exp(-x^2/2) r(|x|) for 0.6745 < |x| < 1e8, NaN
+ * beyond (a plain number rather than an object: the cdf runs millions of times per review).
+ */
+function tailRatio(absoluteX: number): number {
   if (absoluteX <= 5.656854249492381) {
     let numerator = (codyC[8] as number) * absoluteX;
     let denominator = absoluteX;
@@ -101,8 +106,9 @@ function smallerTailParts(
       numerator = (numerator + (codyC[i] as number)) * absoluteX;
       denominator = (denominator + (codyD[i] as number)) * absoluteX;
     }
-    ratio = (numerator + (codyC[7] as number)) / (denominator + (codyD[7] as number));
-  } else if (absoluteX < 1e8) {
+    return (numerator + (codyC[7] as number)) / (denominator + (codyD[7] as number));
+  }
+  if (absoluteX < 1e8) {
     const inverseSquare = 1 / (absoluteX * absoluteX);
     let numerator = (codyP[5] as number) * inverseSquare;
     let denominator = inverseSquare;
@@ -112,13 +118,9 @@ function smallerTailParts(
     }
     const correction =
       (inverseSquare * (numerator + (codyP[4] as number))) / (denominator + (codyQ[4] as number));
-    ratio = (inverseSqrtTwoPi - correction) / absoluteX;
-  } else {
-    return undefined;
+    return (inverseSqrtTwoPi - correction) / absoluteX;
   }
-  const rounded = Math.trunc(absoluteX * 16) / 16;
-  const remainder = (absoluteX - rounded) * (absoluteX + rounded);
-  return { rounded, remainder, ratio };
+  return Number.NaN;
 }
 
 function centralOffset(x: number): number {
@@ -142,6 +144,34 @@ export function normalCdf(x: number): number {
   if (absoluteX <= centralLimit) return 0.5 + centralOffset(x);
   const smaller = smallerTail(absoluteX);
   return x < 0 ? smaller : 1 - smaller;
+}
+
+/**
+ * Phi(x) and phi(x) together, written to out[0] and out[1]: outside the central region the cdf's
+ * own exp(-x^2/2) gives the density, which saves an exp per Newton step of a quantile search.
+ */
+export function normalCdfAndDensity(x: number, out: Float64Array): void {
+  const absoluteX = Math.abs(x);
+  if (Number.isNaN(x)) {
+    out[0] = Number.NaN;
+    out[1] = Number.NaN;
+  } else if (absoluteX <= centralLimit) {
+    out[0] = 0.5 + centralOffset(x);
+    out[1] = inverseSqrtTwoPi * Math.exp(-0.5 * x * x);
+  } else {
+    const ratio = tailRatio(absoluteX);
+    let smaller = 0;
+    let density = 0;
+    if (!Number.isNaN(ratio)) {
+      const rounded = Math.trunc(absoluteX * 16) / 16;
+      const remainder = (absoluteX - rounded) * (absoluteX + rounded);
+      const gaussian = Math.exp(-0.5 * rounded * rounded) * Math.exp(-0.5 * remainder);
+      smaller = gaussian * ratio;
+      density = inverseSqrtTwoPi * gaussian;
+    }
+    out[0] = x < 0 ? smaller : 1 - smaller;
+    out[1] = density;
+  }
 }
 
 /** Upper tail 1 - Phi(x), computed without cancellation. */

@@ -16,7 +16,13 @@
  * lfsr = min(P(theta >= 0), P(theta <= 0)) (Stephens 2017, section 2.5).
  */
 import { componentLogLikelihood, logNormalIntervalProbability } from "./component-likelihood.ts";
-import { normalCdf, normalLogPdf, normalQuantile, normalSurvival } from "./distributions.ts";
+import {
+  normalCdf,
+  normalCdfAndDensity,
+  normalLogPdf,
+  normalQuantile,
+  normalSurvival,
+} from "./distributions.ts";
 import type { EffectPrior, PriorComponent, WeightedComponent } from "./effect-prior.ts";
 import { requireFinite, requireOpenUnit, requirePositive, StatsInputError } from "./errors.ts";
 
@@ -81,6 +87,8 @@ interface Workspace {
   readonly upper: Float64Array;
   readonly logMass: Float64Array;
   readonly logLikelihood: Float64Array;
+  /** Scratch for normalCdfAndDensity: [cdf, density]. */
+  readonly pair: Float64Array;
 }
 
 export function posteriorOf(
@@ -303,6 +311,7 @@ function createWorkspace(capacity: number): Workspace {
     upper: new Float64Array(capacity),
     logMass: new Float64Array(capacity),
     logLikelihood: new Float64Array(capacity),
+    pair: new Float64Array(2),
   };
 }
 
@@ -515,8 +524,9 @@ function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
       const m = workspace.location[c] as number;
       const sc = workspace.scale[c] as number;
       const z = (t - m) / sc;
-      total += weight * normalCdf(z);
-      const part = weight * (Math.exp(normalLogPdf(z)) / sc);
+      normalCdfAndDensity(z, workspace.pair);
+      total += weight * (workspace.pair[0] as number);
+      const part = (weight * (workspace.pair[1] as number)) / sc;
       density += part;
       slope -= (part * z) / sc;
     } else {
@@ -702,11 +712,12 @@ function mixtureQuantile(
     // about one cdf evaluation per quantile; it falls back to Newton's when the correction is large.
     const newtonStep = excess / density;
     const correction = 1 - (0.5 * newtonStep * lastDensitySlope) / density;
-    const halleyStep = correction > 0.5 && correction < 2 ? newtonStep / correction : newtonStep;
-    let next = density > 0 ? t - halleyStep : Number.NaN;
+    const halley = correction > 0.5 && correction < 2;
+    let next = density > 0 ? t - (halley ? newtonStep / correction : newtonStep) : Number.NaN;
     if (!(next > low && next < high)) next = 0.5 * (low + high);
-    // Within 1e-8 of p, the Newton step's own error is of order 1e-16: take it and stop.
-    else if (Math.abs(excess) <= 1e-8) return next;
+    // Close to p the step's own error is far below the stopping rule: within 1e-8 Newton's error
+    // is of order (1e-8)^2, within 1e-6 Halley's of order (1e-6)^3. Take the step and stop.
+    else if (Math.abs(excess) <= (halley ? 1e-6 : 1e-8)) return next;
     if (Math.abs(next - t) <= resolution || high - low <= resolution) return next;
     t = next;
   }
