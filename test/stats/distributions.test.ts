@@ -5,6 +5,7 @@ import {
   noncentralTCdf,
   noncentralTSurvival,
   normalCdf,
+  normalCdfAndDensity,
   normalLogCdf,
   normalQuantile,
   normalSurvival,
@@ -65,6 +66,25 @@ describe("normal distribution (Cody 1993; Wichura 1988 AS 241) against R", () =>
         example.logCdf,
         normalLogCdfTolerance,
       );
+    }
+  });
+  it("cdf with density: the cdf of normalCdf and the density phi(x) from one exp", () => {
+    const pair = new Float64Array(2);
+    for (const example of normal.cdf) {
+      normalCdfAndDensity(example.x, pair);
+      expectClose(
+        "normalCdfAndDensity cdf",
+        { x: example.x },
+        pair[0] as number,
+        example.cdf,
+        normalCdfTolerance,
+      );
+      // phi(x) = exp(-x^2/2) / sqrt(2 pi), the definition; relative 1e-14 allows the split exp's rounding.
+      const density = Math.exp(-0.5 * example.x * example.x) / Math.sqrt(2 * Math.PI);
+      expectClose("normalCdfAndDensity density", { x: example.x }, pair[1] as number, density, {
+        relative: 1e-14,
+        absolute: 1e-300,
+      });
     }
   });
   it("log cdf stays finite far in the lower tail, where the cdf underflows", () => {
