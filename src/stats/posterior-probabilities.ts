@@ -36,9 +36,9 @@ export interface PosteriorProbabilityColumns {
   readonly probAbove: readonly Float64Array[];
 }
 
-type Expanded = { readonly component: PriorComponent; readonly logWeight: number };
+export type Expanded = { readonly component: PriorComponent; readonly logWeight: number };
 
-function expandPrior(prior: EffectPrior): Expanded[] {
+export function expandPrior(prior: EffectPrior): Expanded[] {
   const expanded: Expanded[] = [];
   for (const { component, weight } of prior.components) {
     if (!(weight >= 0) || !Number.isFinite(weight))
@@ -56,7 +56,7 @@ function expandPrior(prior: EffectPrior): Expanded[] {
 }
 
 /** The conjugate posterior of one component: a point, or N(mu, sd^2) truncated to [lower, upper]. */
-interface ComponentPosterior {
+export interface ComponentPosterior {
   point: boolean;
   mu: number;
   sd: number;
@@ -114,6 +114,62 @@ function componentPosterior(component: PriorComponent, y: number, s: number, out
   }
 }
 
+export function createComponentPosterior(): ComponentPosterior {
+  return { point: true, mu: 0, sd: 0, lower: 0, upper: 0 };
+}
+
+/** The posterior figures of one component given (y, s): what a mixture's figures are sums of. */
+export interface ComponentSummary {
+  mean: number;
+  probNull: number;
+  probNegative: number;
+  probPositive: number;
+  /** P(theta > thresholds[j]) for each threshold. */
+  readonly above: Float64Array;
+}
+
+export function createComponentSummary(thresholdCount: number): ComponentSummary {
+  return { mean: 0, probNull: 0, probNegative: 0, probPositive: 0, above: new Float64Array(thresholdCount) };
+}
+
+/**
+ * Fills `out` with the posterior figures of `component` for the result (y, s); `scratch` receives
+ * its conjugate posterior. Shared by the per-result columns and the many-prior sums
+ * (posterior-sums.ts), so both give the same figures.
+ */
+export function summarizeComponent(
+  component: PriorComponent,
+  y: number,
+  s: number,
+  thresholds: readonly number[],
+  scratch: ComponentPosterior,
+  out: ComponentSummary,
+): void {
+  componentPosterior(component, y, s, scratch);
+  if (scratch.point) {
+    const at = scratch.mu;
+    out.mean = at;
+    out.probNull = at === 0 ? 1 : 0;
+    out.probNegative = at < 0 ? 1 : 0;
+    out.probPositive = at > 0 ? 1 : 0;
+    for (let j = 0; j < thresholds.length; j++) out.above[j] = at > (thresholds[j] as number) ? 1 : 0;
+    return;
+  }
+  const alpha = (scratch.lower - scratch.mu) / scratch.sd;
+  const beta = (scratch.upper - scratch.mu) / scratch.sd;
+  const mass = logNormalIntervalProbability(alpha, beta);
+  // Truncated-normal mean: mu + sd (phi(alpha) - phi(beta)) / Z, each ratio in log space.
+  const atLower = Number.isFinite(alpha) ? Math.exp(normalLogPdf(alpha) - mass) : 0;
+  const atUpper = Number.isFinite(beta) ? Math.exp(normalLogPdf(beta) - mass) : 0;
+  out.mean = Math.min(scratch.upper, Math.max(scratch.lower, scratch.mu + scratch.sd * (atLower - atUpper)));
+  const positive = upperTail(scratch, mass, 0);
+  out.probNull = 0;
+  out.probPositive = positive;
+  out.probNegative = 1 - positive;
+  for (let j = 0; j < thresholds.length; j++)
+    out.above[j] = upperTail(scratch, mass, thresholds[j] as number);
+}
+
 /** P(theta > threshold) under a component posterior. */
 function upperTail(posterior: ComponentPosterior, logMass: number, threshold: number): number {
   if (posterior.point) return posterior.mu > threshold ? 1 : 0;
@@ -146,14 +202,7 @@ export function posteriorProbabilityColumns(
   const components = expandPrior(prior);
   const k = components.length;
   const logJoint = new Float64Array(k);
-  const logMass = new Float64Array(k);
-  const posteriors: ComponentPosterior[] = components.map(() => ({
-    point: true,
-    mu: 0,
-    sd: 0,
-    lower: 0,
-    upper: 0,
-  }));
+  const posterior = createComponentPosterior();
   const columns: PosteriorProbabilityColumns = {
     mean: new Float64Array(count),
     probNull: new Float64Array(count),
@@ -161,6 +210,7 @@ export function posteriorProbabilityColumns(
     probPositive: new Float64Array(count),
     probAbove: thresholds.map(() => new Float64Array(count)),
   };
+  const summary = createComponentSummary(thresholds.length);
   for (let i = 0; i < count; i++) {
     const yi = y[i] as number;
     const si = s[i] as number;
@@ -185,34 +235,13 @@ export function posteriorProbabilityColumns(
     for (let c = 0; c < k; c++) {
       const weight = (logJoint[c] as number) / total;
       if (!(weight > 0)) continue;
-      const posterior = posteriors[c] as ComponentPosterior;
-      componentPosterior((components[c] as Expanded).component, yi, si, posterior);
-      if (posterior.point) {
-        mean += weight * posterior.mu;
-        if (posterior.mu === 0) probNull += weight;
-        else if (posterior.mu < 0) probNegative += weight;
-        else probPositive += weight;
-        for (let j = 0; j < thresholds.length; j++)
-          if (posterior.mu > (thresholds[j] as number)) above[j] = (above[j] as number) + weight;
-        continue;
-      }
-      const alpha = (posterior.lower - posterior.mu) / posterior.sd;
-      const beta = (posterior.upper - posterior.mu) / posterior.sd;
-      const mass = logNormalIntervalProbability(alpha, beta);
-      logMass[c] = mass;
-      // Truncated-normal mean: mu + sd (phi(alpha) - phi(beta)) / Z, each ratio in log space.
-      const atLower = Number.isFinite(alpha) ? Math.exp(normalLogPdf(alpha) - mass) : 0;
-      const atUpper = Number.isFinite(beta) ? Math.exp(normalLogPdf(beta) - mass) : 0;
-      const componentMean = Math.min(
-        posterior.upper,
-        Math.max(posterior.lower, posterior.mu + posterior.sd * (atLower - atUpper)),
-      );
-      mean += weight * componentMean;
-      const positive = upperTail(posterior, mass, 0);
-      probPositive += weight * positive;
-      probNegative += weight * (1 - positive);
+      summarizeComponent((components[c] as Expanded).component, yi, si, thresholds, posterior, summary);
+      mean += weight * summary.mean;
+      probNull += weight * summary.probNull;
+      probNegative += weight * summary.probNegative;
+      probPositive += weight * summary.probPositive;
       for (let j = 0; j < thresholds.length; j++)
-        above[j] = (above[j] as number) + weight * upperTail(posterior, mass, thresholds[j] as number);
+        above[j] = (above[j] as number) + weight * (summary.above[j] as number);
     }
     columns.mean[i] = mean;
     columns.probNull[i] = Math.min(1, probNull);

@@ -28,6 +28,7 @@ import { type EffectPrior, nullShare } from "./effect-prior.ts";
 import { requireFinite, requireOpenUnit, StatsInputError } from "./errors.ts";
 import { posteriorColumns, posteriorMixture } from "./posterior.ts";
 import { posteriorProbabilityColumns } from "./posterior-probabilities.ts";
+import { type PosteriorSums, posteriorSumsUnderPriors } from "./posterior-sums.ts";
 import { type PredictiveCalibration, predictiveCalibration } from "./predictive-calibration.ts";
 import type { RandomSource } from "./random.ts";
 import { shippingPartial } from "./shipping-expectation.ts";
@@ -336,6 +337,33 @@ function programSums(
   };
 }
 
+/**
+ * programSums under each bootstrap refit: the refits share the fit's components, so each test's
+ * component figures are computed once for all of them (posterior-sums.ts).
+ */
+function programSumsUnderRefits(
+  priors: readonly EffectPrior[],
+  shipped: TestColumns,
+  notShipped: TestColumns,
+  delta: number,
+  practical: number | null,
+): ProgramSums[] {
+  const thresholds = practical === null ? [delta] : [delta, practical];
+  const shippedSums = posteriorSumsUnderPriors(priors, shipped.y, shipped.s, thresholds);
+  const notShippedSums = posteriorSumsUnderPriors(priors, notShipped.y, notShipped.s, [delta]);
+  const count = shipped.y.length;
+  return priors.map((_, b) => {
+    const onShipped = shippedSums[b] as PosteriorSums;
+    return {
+      falseWins: count - (onShipped.probAbove[0] as number),
+      falseWinsPractical: practical === null ? 0 : count - (onShipped.probAbove[1] as number),
+      signErrors: onShipped.probNegative,
+      realizedSum: onShipped.mean,
+      missedWins: (notShippedSums[b] as PosteriorSums).probAbove[0] as number,
+    };
+  });
+}
+
 function histogram(values: readonly number[], bins: number): HistogramBin[] {
   const counts = new Array<number>(bins).fill(0);
   for (const value of values) {
@@ -504,9 +532,7 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
     shipped,
     (test) => includedPosteriors.mean[includedIndex.get(test) as number] as number,
   );
-  const refits = bootstrapPriors.map((each) =>
-    programSums(each, shippedColumns, notShippedColumns, delta, practical),
-  );
+  const refits = programSumsUnderRefits(bootstrapPriors, shippedColumns, notShippedColumns, delta, practical);
   const claimedSum = shipped.reduce((total, test) => total + test.y, 0);
   const claimedCompounded = shipped.reduce((product, test) => product * (1 + test.y), 1) - 1;
   const shippedCount = shipped.length;

@@ -1,0 +1,169 @@
+/**
+ * Sums over many results of their posterior figures (mean, P(null), P(theta < 0), P(theta > 0),
+ * P(theta > t)) under each of many priors that share their components: the bootstrap refits of one
+ * family, which differ only in weights (bootstrap-prior.ts). Per result, each component's
+ * likelihood and posterior figures are computed once (summarizeComponent, the kernel of
+ * posterior-probabilities.ts) and each prior's figures are then weighted averages of them, so a
+ * prior costs multiply-adds instead of a pass of likelihoods in log space.
+ *
+ * The posterior weight of component k under prior b is w_bk L_k / sum_j w_bj L_j, with the
+ * likelihoods scaled by their largest over the shared components; if that scaling underflows for
+ * one prior's components (a result far from all of them), the row is redone in log space for it.
+ * The figures equal the sums of posteriorProbabilityColumns' columns up to rounding.
+ */
+import { componentLogLikelihood } from "./component-likelihood.ts";
+import type { EffectPrior, PriorComponent } from "./effect-prior.ts";
+import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
+import {
+  createComponentPosterior,
+  createComponentSummary,
+  expandPrior,
+  summarizeComponent,
+} from "./posterior-probabilities.ts";
+
+export interface PosteriorSums {
+  readonly mean: number;
+  readonly probNull: number;
+  readonly probNegative: number;
+  readonly probPositive: number;
+  /** Sum of P(theta > thresholds[j] | y) for each threshold. */
+  readonly probAbove: readonly number[];
+}
+
+// Below this the scaled row total has lost too much of its precision: redo the row in log space.
+const smallestReliableTotal = 1e-280;
+
+/** For each prior, the sums over results i of its posterior figures for (y[i], s[i]). */
+export function posteriorSumsUnderPriors(
+  priors: readonly EffectPrior[],
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  thresholds: readonly number[] = [],
+): PosteriorSums[] {
+  if (y.length !== s.length)
+    throw new StatsInputError("s", `of the same length as y (${y.length})`, s.length);
+  for (const [j, threshold] of thresholds.entries()) requireFinite(`thresholds[${j}]`, threshold);
+  const count = y.length;
+  for (let i = 0; i < count; i++) {
+    if (!Number.isFinite(y[i] as number)) requireFinite(`y[${i}]`, y[i] as number);
+    const si = s[i] as number;
+    if (!(si > 0 && si < Number.POSITIVE_INFINITY)) requirePositive(`s[${i}]`, si);
+  }
+  if (priors.length === 0) return [];
+
+  // The shared components (by value) and each prior's weights over them.
+  const shared: PriorComponent[] = [];
+  const indexOf = new Map<string, number>();
+  const expandedPriors = priors.map((prior) => expandPrior(prior));
+  for (const expanded of expandedPriors)
+    for (const { component } of expanded) {
+      const key = JSON.stringify(component);
+      if (!indexOf.has(key)) {
+        indexOf.set(key, shared.length);
+        shared.push(component);
+      }
+    }
+  const k = shared.length;
+  const weights = expandedPriors.map((expanded) => {
+    const row = new Float64Array(k);
+    for (const { component, logWeight } of expanded) {
+      const index = indexOf.get(JSON.stringify(component)) as number;
+      row[index] = (row[index] as number) + Math.exp(logWeight);
+    }
+    return row;
+  });
+
+  const thresholdCount = thresholds.length;
+  // Per result: each shared component's log-likelihood, scaled likelihood and figures.
+  const logLikelihood = new Float64Array(k);
+  const likelihood = new Float64Array(k);
+  const mean = new Float64Array(k);
+  const probNull = new Float64Array(k);
+  const probNegative = new Float64Array(k);
+  const probPositive = new Float64Array(k);
+  const above = new Float64Array(k * thresholdCount);
+  const share = new Float64Array(k);
+  const scratch = createComponentPosterior();
+  const summary = createComponentSummary(thresholdCount);
+  const sums = priors.map(() => ({
+    mean: 0,
+    probNull: 0,
+    probNegative: 0,
+    probPositive: 0,
+    probAbove: new Float64Array(thresholdCount),
+  }));
+  const rowAbove = new Float64Array(thresholdCount);
+
+  for (let i = 0; i < count; i++) {
+    const yi = y[i] as number;
+    const si = s[i] as number;
+    let largest = Number.NEGATIVE_INFINITY;
+    for (let c = 0; c < k; c++) {
+      const value = componentLogLikelihood(shared[c] as PriorComponent, yi, si);
+      logLikelihood[c] = value;
+      if (value > largest) largest = value;
+      summarizeComponent(shared[c] as PriorComponent, yi, si, thresholds, scratch, summary);
+      mean[c] = summary.mean;
+      probNull[c] = summary.probNull;
+      probNegative[c] = summary.probNegative;
+      probPositive[c] = summary.probPositive;
+      for (let j = 0; j < thresholdCount; j++) above[c * thresholdCount + j] = summary.above[j] as number;
+    }
+    for (let c = 0; c < k; c++) likelihood[c] = Math.exp((logLikelihood[c] as number) - largest);
+
+    for (let b = 0; b < priors.length; b++) {
+      const w = weights[b] as Float64Array;
+      let total = 0;
+      for (let c = 0; c < k; c++) {
+        const part = (w[c] as number) * (likelihood[c] as number);
+        share[c] = part;
+        total += part;
+      }
+      if (!(total > smallestReliableTotal)) {
+        // Log space for this prior's own components: their largest joint is the scale.
+        let best = Number.NEGATIVE_INFINITY;
+        for (let c = 0; c < k; c++)
+          if ((w[c] as number) > 0)
+            best = Math.max(best, Math.log(w[c] as number) + (logLikelihood[c] as number));
+        total = 0;
+        for (let c = 0; c < k; c++) {
+          const part =
+            (w[c] as number) > 0
+              ? Math.exp(Math.log(w[c] as number) + (logLikelihood[c] as number) - best)
+              : 0;
+          share[c] = part;
+          total += part;
+        }
+      }
+      let rowMean = 0;
+      let rowNull = 0;
+      let rowNegative = 0;
+      let rowPositive = 0;
+      rowAbove.fill(0);
+      for (let c = 0; c < k; c++) {
+        const weight = (share[c] as number) / total;
+        if (!(weight > 0)) continue;
+        rowMean += weight * (mean[c] as number);
+        rowNull += weight * (probNull[c] as number);
+        rowNegative += weight * (probNegative[c] as number);
+        rowPositive += weight * (probPositive[c] as number);
+        for (let j = 0; j < thresholdCount; j++)
+          rowAbove[j] = (rowAbove[j] as number) + weight * (above[c * thresholdCount + j] as number);
+      }
+      const sum = sums[b] as (typeof sums)[number];
+      sum.mean += rowMean;
+      sum.probNull += Math.min(1, rowNull);
+      sum.probNegative += Math.min(1, rowNegative);
+      sum.probPositive += Math.min(1, rowPositive);
+      for (let j = 0; j < thresholdCount; j++)
+        sum.probAbove[j] = (sum.probAbove[j] as number) + Math.min(1, rowAbove[j] as number);
+    }
+  }
+  return sums.map((sum) => ({
+    mean: sum.mean,
+    probNull: sum.probNull,
+    probNegative: sum.probNegative,
+    probPositive: sum.probPositive,
+    probAbove: Array.from(sum.probAbove),
+  }));
+}
