@@ -5,11 +5,14 @@
  * is; the row maxima are kept as logs (the log-likelihood adds them back). This is the scaling
  * used by mix-SQP (Kim, Carbonetto, Stephens & Anitescu 2020, JCGS 29:945, section 3.2).
  *
- * Point and normal components take a fast path in linear space (one exp and one sqrt a cell),
- * redone in log space for any row whose maximum would underflow. Other components are computed in
- * log space (componentLogLikelihood). Memory: 8 N K bytes plus 8 N for the row maxima.
+ * Point and normal components take a fast path in linear space (one exp and one sqrt a cell), and
+ * so do point and uniform components together (the skewed family: each row evaluates the normal
+ * cdf once per distinct bound, shared by the uniforms that end there). Either is redone in log
+ * space for any row whose maximum would underflow. Other components are computed in log space
+ * (componentLogLikelihood). Memory: 8 N K bytes plus 8 N for the row maxima.
  */
 import { componentLogLikelihood } from "./component-likelihood.ts";
+import { normalCdf } from "./distributions.ts";
 import type { PriorComponent } from "./effect-prior.ts";
 
 export interface LikelihoodMatrix {
@@ -22,6 +25,7 @@ export interface LikelihoodMatrix {
 }
 
 const logSqrtTwoPi = 0.9189385332046728;
+const inverseSqrtTwoPi = 0.3989422804014327;
 // Below this a row maximum computed in linear space has lost precision to gradual underflow.
 const smallestSafeMaximum = 1e-280;
 
@@ -35,7 +39,12 @@ export function likelihoodMatrix(
   const values = new Float64Array(rows * columns);
   const logRowMax = new Float64Array(rows);
   const fast = components.every((component) => component.kind === "point" || component.kind === "normal");
+  const uniformFast = components.every(
+    (component) =>
+      component.kind === "point" || (component.kind === "uniform" && component.upper > component.lower),
+  );
   if (fast) fillGaussian(y, s, components, values, logRowMax);
+  else if (uniformFast) fillPointsAndUniforms(y, s, components, values, logRowMax);
   else
     for (let i = 0; i < rows; i++)
       fillRowInLogSpace(y[i] as number, s[i] as number, components, values, logRowMax, i);
@@ -76,6 +85,93 @@ function fillGaussian(
       const inverse = 1 / maximum;
       for (let k = 0; k < columns; k++) values[offset + k] = (values[offset + k] as number) * inverse;
       logRowMax[i] = Math.log(maximum) - logSqrtTwoPi;
+    } else {
+      fillRowInLogSpace(yi, si, components, values, logRowMax, i);
+    }
+  }
+}
+
+/**
+ * Points and uniforms in linear space: a point at a gives phi((y - a)/s)/s, a uniform on [l, u]
+ * gives (Phi((u - y)/s) - Phi((l - y)/s))/(u - l). Each distinct bound's cdf is taken once a row,
+ * as both tails (the smaller one to full relative accuracy), and an interval is the difference of
+ * the tails on its side of 0, as logNormalIntervalProbability does, so that nothing cancels more
+ * than the interval's own narrowness requires.
+ */
+function fillPointsAndUniforms(
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  components: readonly PriorComponent[],
+  values: Float64Array,
+  logRowMax: Float64Array,
+): void {
+  const columns = components.length;
+  const bounds: number[] = [];
+  const boundIndex = new Map<number, number>();
+  const indexOfBound = (value: number): number => {
+    let index = boundIndex.get(value);
+    if (index === undefined) {
+      index = bounds.length;
+      boundIndex.set(value, index);
+      bounds.push(value);
+    }
+    return index;
+  };
+  const isPoint = new Uint8Array(columns);
+  const at = new Float64Array(columns);
+  const lowerBound = new Int32Array(columns);
+  const upperBound = new Int32Array(columns);
+  const inverseWidth = new Float64Array(columns);
+  components.forEach((component, k) => {
+    if (component.kind === "point") {
+      isPoint[k] = 1;
+      at[k] = component.at;
+    } else if (component.kind === "uniform") {
+      lowerBound[k] = indexOfBound(component.lower);
+      upperBound[k] = indexOfBound(component.upper);
+      inverseWidth[k] = 1 / (component.upper - component.lower);
+    }
+  });
+  const boundValues = Float64Array.from(bounds);
+  const below = new Float64Array(bounds.length);
+  const above = new Float64Array(bounds.length);
+  const standardized = new Float64Array(bounds.length);
+  for (let i = 0; i < y.length; i++) {
+    const yi = y[i] as number;
+    const si = s[i] as number;
+    for (let b = 0; b < boundValues.length; b++) {
+      const z = ((boundValues[b] as number) - yi) / si;
+      standardized[b] = z;
+      // One cdf call: the smaller tail directly, the other as its complement.
+      const smaller = normalCdf(-Math.abs(z));
+      below[b] = z < 0 ? smaller : 1 - smaller;
+      above[b] = z < 0 ? 1 - smaller : smaller;
+    }
+    const offset = i * columns;
+    let maximum = 0;
+    for (let k = 0; k < columns; k++) {
+      let value: number;
+      if (isPoint[k] === 1) {
+        const z = (yi - (at[k] as number)) / si;
+        value = (inverseSqrtTwoPi * Math.exp(-0.5 * z * z)) / si;
+      } else {
+        const from = lowerBound[k] as number;
+        const to = upperBound[k] as number;
+        const mass =
+          (standardized[from] as number) >= 0
+            ? (above[from] as number) - (above[to] as number)
+            : (standardized[to] as number) <= 0
+              ? (below[to] as number) - (below[from] as number)
+              : 1 - (below[from] as number) - (above[to] as number);
+        value = Math.max(0, mass) * (inverseWidth[k] as number);
+      }
+      values[offset + k] = value;
+      if (value > maximum) maximum = value;
+    }
+    if (maximum > smallestSafeMaximum && maximum < Number.POSITIVE_INFINITY) {
+      const inverse = 1 / maximum;
+      for (let k = 0; k < columns; k++) values[offset + k] = (values[offset + k] as number) * inverse;
+      logRowMax[i] = Math.log(maximum);
     } else {
       fillRowInLogSpace(yi, si, components, values, logRowMax, i);
     }
