@@ -6,7 +6,7 @@
  * summary and the per-test table are two entries, so the summary is served without the table.
  */
 import { createHash } from "node:crypto";
-import { and, eq } from "drizzle-orm";
+import { and, eq, sql } from "drizzle-orm";
 import type { Database } from "../db/client.ts";
 import { computationCache, dataVersions } from "../db/schema.ts";
 
@@ -40,20 +40,23 @@ export async function readCache<T>(db: Database, cacheKey: string, kind: string)
   return row ? (row.value as T) : null;
 }
 
+/**
+ * Writes entries given as JSON text: the caller serializes once (a large per-test table costs as
+ * much to stringify as to compute), and the text is bound as it is rather than through the json
+ * column's own stringify.
+ */
 export async function writeCache(
   db: Database,
   workspaceId: number,
-  entries: readonly { cacheKey: string; kind: string; value: unknown }[],
+  entries: readonly { cacheKey: string; kind: string; json: string }[],
 ): Promise<void> {
   await db.transaction(async (tx) => {
     for (const entry of entries) {
+      const value = sql`${entry.json}`;
       await tx
         .insert(computationCache)
-        .values({ cacheKey: entry.cacheKey, workspaceId, kind: entry.kind, value: entry.value })
-        .onConflictDoUpdate({
-          target: computationCache.cacheKey,
-          set: { value: entry.value, kind: entry.kind },
-        });
+        .values({ cacheKey: entry.cacheKey, workspaceId, kind: entry.kind, value })
+        .onConflictDoUpdate({ target: computationCache.cacheKey, set: { value, kind: entry.kind } });
     }
   });
 }

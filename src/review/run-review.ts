@@ -230,16 +230,17 @@ export async function runReview(
     families: data.families,
     reviewedTests: data.reviewedTests.length,
   };
-  // Through JSON once, so that a fresh result and a cached one are the same document (NaN -> null).
-  const storedSummary = JSON.parse(JSON.stringify(summary)) as ReviewSummary;
-  const storedTests = JSON.parse(JSON.stringify(tests)) as ReviewTestRow[];
+  // Serialized once for the cache; what is returned is parsed back from the same text, so that a
+  // fresh result and a cached one are the same document (NaN -> null).
+  const summaryJson = JSON.stringify(summary);
+  const testsJson = JSON.stringify(tests);
   await writeCache(db, workspaceId, [
-    { cacheKey, kind: reviewCacheKind, value: storedSummary },
-    { cacheKey: testsCacheKey, kind: reviewTestsCacheKind, value: storedTests },
+    { cacheKey, kind: reviewCacheKind, json: summaryJson },
+    { cacheKey: testsCacheKey, kind: reviewTestsCacheKind, json: testsJson },
   ]);
   return {
-    summary: storedSummary,
-    tests: options.includeTests ? storedTests : null,
+    summary: JSON.parse(summaryJson) as ReviewSummary,
+    tests: options.includeTests ? (JSON.parse(testsJson) as ReviewTestRow[]) : null,
     cached: false,
     cacheKey,
   };
