@@ -253,10 +253,11 @@ export interface ProgramReview {
 }
 
 /**
- * Parametric bootstrap draws behind Lee & Shen's interval. The bias is a sum over every test, so
- * its bootstrap distribution is close to normal and 200 draws place 2.5 % / 97.5 % percentiles
- * well enough for a second opinion (Efron & Tibshirani 1993, ch. 13, suggest B >= 1000 for
- * precise percentile intervals; this trades that precision for speed on large histories).
+ * Parametric bootstrap draws behind Lee & Shen's interval below momentsFromTests tests (from there
+ * on the interval comes from the bootstrap distribution's exact moments, winners-curse-bias.ts).
+ * The bias is a sum over every test, so its bootstrap distribution is close to normal and 200
+ * draws place 2.5 % / 97.5 % percentiles well enough for a second opinion (Efron & Tibshirani
+ * 1993, ch. 13, suggest B >= 1000 for precise percentile intervals).
  */
 export const defaultWinnersCurseReplicates = 200;
 

@@ -2,7 +2,12 @@ import { describe, expect, it } from "vitest";
 import { normalCdf, normalQuantile } from "../../src/stats/distributions.ts";
 import { StatsInputError } from "../../src/stats/errors.ts";
 import { createRandom } from "../../src/stats/random.ts";
-import { winnersCurseBias } from "../../src/stats/winners-curse-bias.ts";
+import {
+  bootstrapBiasMoments,
+  expectedSelectionBias,
+  momentsFromTests,
+  winnersCurseBias,
+} from "../../src/stats/winners-curse-bias.ts";
 import { readReviewFixture } from "./review-fixture.ts";
 import { expectClose } from "./tolerance.ts";
 
@@ -90,5 +95,49 @@ describe("Lee & Shen (2018) simulation design", () => {
     expect(() => winnersCurseBias([{ y: 0.1, s: 1 }], { thresholdZ: 1.96, replicates: 10 })).toThrow(
       StatsInputError,
     );
+  });
+});
+
+describe("Lee & Shen's interval from the bootstrap distribution's exact moments", () => {
+  // Reference: the parametric bootstrap itself, simulated (Lee & Shen 2018's interval by draws),
+  // on 1,500 tests (above momentsFromTests) with 10,000 draws.
+  const random = createRandom(20261206);
+  const tests = Array.from({ length: 1500 }, () => {
+    const s = 0.005 + 0.02 * random.uniform();
+    const theta = random.uniform() < 0.7 ? 0 : 0.02 * random.normal();
+    return { y: theta + s * random.normal(), s };
+  });
+  const threshold = 1.959964;
+  const draws = 10_000;
+  const simulated: number[] = [];
+  const estimates = tests.map((test) => test.y);
+  const errors = tests.map((test) => test.s);
+  const thresholds = tests.map(() => threshold);
+  for (let b = 0; b < draws; b++) {
+    const redrawn = tests.map((test) => test.y + test.s * random.normal());
+    simulated.push(expectedSelectionBias(redrawn, errors, thresholds));
+  }
+  simulated.sort((a, b) => a - b);
+  const mean = simulated.reduce((sum, value) => sum + value, 0) / draws;
+  const sd = Math.sqrt(simulated.reduce((sum, value) => sum + (value - mean) ** 2, 0) / (draws - 1));
+
+  it("has the simulated bootstrap's mean and sd", () => {
+    const moments = bootstrapBiasMoments(estimates, errors, thresholds);
+    // The mean of 10,000 draws is within 4 of its standard errors (sd / 100) of the exact one; the
+    // draws' sd within 4 standard errors (about sd / sqrt(2 * 10,000)).
+    expect(Math.abs(moments.mean - mean)).toBeLessThanOrEqual((4 * sd) / Math.sqrt(draws));
+    expect(Math.abs(Math.sqrt(moments.variance) - sd)).toBeLessThanOrEqual((4 * sd) / Math.sqrt(2 * draws));
+  });
+
+  it("gives the simulated percentile interval", () => {
+    const result = winnersCurseBias(tests, { thresholdZ: threshold, replicates: 200, random, level: 0.95 });
+    expect(tests.length).toBeGreaterThanOrEqual(momentsFromTests);
+    expect(result.method).toMatch(/exact moments/);
+    const at = (p: number) => simulated[Math.round(p * (draws - 1))] as number;
+    // A 2.5 % percentile of 10,000 draws has standard error sqrt(p (1 - p) / B) / density, about
+    // 0.027 sd for a near-normal distribution; allow 4 of them.
+    const tolerance = 4 * 0.027 * sd;
+    expect(Math.abs((result.interval?.lower as number) - at(0.025))).toBeLessThanOrEqual(tolerance);
+    expect(Math.abs((result.interval?.upper as number) - at(0.975))).toBeLessThanOrEqual(tolerance);
   });
 });
