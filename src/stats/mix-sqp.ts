@@ -343,7 +343,12 @@ function accumulateRatioSums(
   }
 }
 
-/** Upper triangle of sum_r a_r / u_r^2 L_rC L_rC' over the working columns C (row-major). */
+/**
+ * Upper triangle of sum_r a_r / u_r^2 L_rC L_rC' over the working columns C (row-major). Each row
+ * is scaled by sqrt(a_r) / u_r, and four rows are added per pass over the triangle, so that each
+ * Hessian entry is loaded and stored once per four rows (the triangle fits in cache; its loads and
+ * stores, not the multiplications, bound the loop).
+ */
 function accumulateHessian(
   values: Float64Array,
   columns: number,
@@ -354,18 +359,47 @@ function accumulateHessian(
 ): Float64Array {
   const size = workingIndex.length;
   const hessian = new Float64Array(size * size);
-  const rowBuffer = new Float64Array(size);
-  for (let r = 0; r < rows.length; r++) {
-    const u = fitted[r] as number;
-    const scale = (rowWeights[r] as number) / (u * u);
+  const a = new Float64Array(size);
+  const b = new Float64Array(size);
+  const c = new Float64Array(size);
+  const d = new Float64Array(size);
+  const load = (buffer: Float64Array, r: number): void => {
+    const factor = Math.sqrt(rowWeights[r] as number) / (fitted[r] as number);
     const offset = (rows[r] as number) * columns;
-    for (let j = 0; j < size; j++) rowBuffer[j] = values[offset + (workingIndex[j] as number)] as number;
+    for (let j = 0; j < size; j++)
+      buffer[j] = (values[offset + (workingIndex[j] as number)] as number) * factor;
+  };
+  const count = rows.length;
+  let r = 0;
+  for (; r + 3 < count; r += 4) {
+    load(a, r);
+    load(b, r + 1);
+    load(c, r + 2);
+    load(d, r + 3);
     for (let j = 0; j < size; j++) {
-      const left = (rowBuffer[j] as number) * scale;
-      if (left === 0) continue;
+      const aj = a[j] as number;
+      const bj = b[j] as number;
+      const cj = c[j] as number;
+      const dj = d[j] as number;
+      if (aj === 0 && bj === 0 && cj === 0 && dj === 0) continue;
       const base = j * size;
       for (let m = j; m < size; m++)
-        hessian[base + m] = (hessian[base + m] as number) + left * (rowBuffer[m] as number);
+        hessian[base + m] =
+          (hessian[base + m] as number) +
+          aj * (a[m] as number) +
+          bj * (b[m] as number) +
+          cj * (c[m] as number) +
+          dj * (d[m] as number);
+    }
+  }
+  for (; r < count; r++) {
+    load(a, r);
+    for (let j = 0; j < size; j++) {
+      const aj = a[j] as number;
+      if (aj === 0) continue;
+      const base = j * size;
+      for (let m = j; m < size; m++)
+        hessian[base + m] = (hessian[base + m] as number) + aj * (a[m] as number);
     }
   }
   return hessian;
