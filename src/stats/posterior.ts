@@ -89,6 +89,8 @@ interface Workspace {
   readonly logLikelihood: Float64Array;
   /** Scratch for normalCdfAndDensity: [cdf, density]. */
   readonly pair: Float64Array;
+  /** The mixture density and its slope at the last point of the quantile search. */
+  readonly derivatives: Float64Array;
 }
 
 export function posteriorOf(
@@ -312,6 +314,7 @@ function createWorkspace(capacity: number): Workspace {
     logMass: new Float64Array(capacity),
     logLikelihood: new Float64Array(capacity),
     pair: new Float64Array(2),
+    derivatives: new Float64Array(2),
   };
 }
 
@@ -508,12 +511,11 @@ function mixtureLowerTail(workspace: Workspace, t: number): number {
   return total;
 }
 
-// The density of the last mixtureLowerTailAndDensity call (a second return value without an
-// allocation per Newton step).
-let lastDensity = 0;
-let lastDensitySlope = 0;
-
-/** The mixture cdf at t, with the density at t left in lastDensity: one pass for a Newton step. */
+/**
+ * The mixture cdf at t, with the density and its slope at t left in workspace.derivatives (a
+ * typed array: a double kept in a module variable is boxed anew on every store), one pass for a
+ * Newton step.
+ */
 function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
   let total = 0;
   let density = 0;
@@ -537,8 +539,8 @@ function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
         slope -= (part * (t - (workspace.location[c] as number))) / (workspace.scale[c] as number) ** 2;
     }
   }
-  lastDensity = density;
-  lastDensitySlope = slope;
+  workspace.derivatives[0] = density;
+  workspace.derivatives[1] = slope;
   return total;
 }
 
@@ -707,11 +709,11 @@ function mixtureQuantile(
     if (Math.abs(excess) <= 1e-13) return t;
     if (excess < 0) low = t;
     else high = t;
-    const density = lastDensity;
+    const density = workspace.derivatives[0] as number;
     // Halley's step (Newton's corrected by the density's slope) converges cubically, which saves
     // about one cdf evaluation per quantile; it falls back to Newton's when the correction is large.
     const newtonStep = excess / density;
-    const correction = 1 - (0.5 * newtonStep * lastDensitySlope) / density;
+    const correction = 1 - (0.5 * newtonStep * (workspace.derivatives[1] as number)) / density;
     const halley = correction > 0.5 && correction < 2;
     let next = density > 0 ? t - (halley ? newtonStep / correction : newtonStep) : Number.NaN;
     if (!(next > low && next < high)) next = 0.5 * (low + high);
