@@ -10,11 +10,19 @@
  * likelihoods scaled by their largest over the shared components; if that scaling underflows for
  * one prior's components (a result far from all of them), the row is redone in log space for it.
  * The figures equal the sums of posteriorProbabilityColumns' columns up to rounding.
+ *
+ * Uniform components (the skewed family) are summarized in linear space from the normal cdf and
+ * density at each distinct bound and threshold, taken once a result: the posterior of a uniform on
+ * [l, u] is N(y, s^2) truncated there, whose mass, mean and tails are differences of those values
+ * (the tails on the interval's side of 0, as logNormalIntervalProbability takes them). A mass too
+ * small for linear space sends that component to the log-space kernel.
  */
 import { componentLogLikelihood } from "./component-likelihood.ts";
+import { normalCdf } from "./distributions.ts";
 import type { EffectPrior, PriorComponent } from "./effect-prior.ts";
 import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
 import {
+  type ComponentSummary,
   createComponentPosterior,
   createComponentSummary,
   expandPrior,
@@ -74,6 +82,7 @@ export function posteriorSumsUnderPriors(
   });
 
   const thresholdCount = thresholds.length;
+  const uniforms = uniformBounds(shared, thresholds);
   // Per result: each shared component's log-likelihood, scaled likelihood and figures.
   const logLikelihood = new Float64Array(k);
   const likelihood = new Float64Array(k);
@@ -98,11 +107,16 @@ export function posteriorSumsUnderPriors(
     const yi = y[i] as number;
     const si = s[i] as number;
     let largest = Number.NEGATIVE_INFINITY;
+    if (uniforms.count > 0) uniforms.evaluate(yi, si);
     for (let c = 0; c < k; c++) {
-      const value = componentLogLikelihood(shared[c] as PriorComponent, yi, si);
-      logLikelihood[c] = value;
+      if (uniforms.isUniform[c] === 1 && uniforms.summarize(c, yi, si, summary)) {
+        logLikelihood[c] = uniforms.logLikelihood;
+      } else {
+        logLikelihood[c] = componentLogLikelihood(shared[c] as PriorComponent, yi, si);
+        summarizeComponent(shared[c] as PriorComponent, yi, si, thresholds, scratch, summary);
+      }
+      const value = logLikelihood[c] as number;
       if (value > largest) largest = value;
-      summarizeComponent(shared[c] as PriorComponent, yi, si, thresholds, scratch, summary);
       mean[c] = summary.mean;
       probNull[c] = summary.probNull;
       probNegative[c] = summary.probNegative;
@@ -166,4 +180,99 @@ export function posteriorSumsUnderPriors(
     probPositive: sum.probPositive,
     probAbove: Array.from(sum.probAbove),
   }));
+}
+
+const inverseSqrtTwoPi = 0.3989422804014327;
+// Below this an interval's mass computed in linear space has lost precision to underflow.
+const smallestLinearMass = 1e-280;
+
+/**
+ * The uniform components' bounds and the thresholds (and 0) as one list of points; per result,
+ * the standardized point, both tails and the density at each; then each uniform's figures.
+ */
+function uniformBounds(components: readonly PriorComponent[], thresholds: readonly number[]) {
+  const points: number[] = [];
+  const indexOf = new Map<number, number>();
+  const pointIndex = (value: number): number => {
+    let index = indexOf.get(value);
+    if (index === undefined) {
+      index = points.length;
+      indexOf.set(value, index);
+      points.push(value);
+    }
+    return index;
+  };
+  const k = components.length;
+  const isUniform = new Uint8Array(k);
+  const from = new Int32Array(k);
+  const to = new Int32Array(k);
+  const lower = new Float64Array(k);
+  const upper = new Float64Array(k);
+  let count = 0;
+  components.forEach((component, c) => {
+    if (component.kind === "uniform" && component.upper > component.lower) {
+      isUniform[c] = 1;
+      from[c] = pointIndex(component.lower);
+      to[c] = pointIndex(component.upper);
+      lower[c] = component.lower;
+      upper[c] = component.upper;
+      count++;
+    }
+  });
+  const zero = pointIndex(0);
+  const thresholdPoint = Int32Array.from(thresholds, (threshold) => pointIndex(threshold));
+  const values = Float64Array.from(points);
+  const z = new Float64Array(points.length);
+  const below = new Float64Array(points.length);
+  const above = new Float64Array(points.length);
+  const density = new Float64Array(points.length);
+
+  /** Mass of N(0, 1) between points a and b (a <= b), without cancellation across 0. */
+  const mass = (a: number, b: number): number =>
+    (z[a] as number) >= 0
+      ? (above[a] as number) - (above[b] as number)
+      : (z[b] as number) <= 0
+        ? (below[b] as number) - (below[a] as number)
+        : 1 - (below[a] as number) - (above[b] as number);
+
+  const state = {
+    count,
+    isUniform,
+    /** log-likelihood of the component last summarized. */
+    logLikelihood: 0,
+    evaluate(y: number, s: number): void {
+      for (let p = 0; p < values.length; p++) {
+        const standardized = ((values[p] as number) - y) / s;
+        z[p] = standardized;
+        const smaller = normalCdf(-Math.abs(standardized));
+        below[p] = standardized < 0 ? smaller : 1 - smaller;
+        above[p] = standardized < 0 ? 1 - smaller : smaller;
+        density[p] = inverseSqrtTwoPi * Math.exp(-0.5 * standardized * standardized);
+      }
+    },
+    /** Fills `out` for uniform component c; false when its mass is too small for linear space. */
+    summarize(c: number, y: number, s: number, out: ComponentSummary): boolean {
+      const a = from[c] as number;
+      const b = to[c] as number;
+      const total = mass(a, b);
+      if (!(total > smallestLinearMass)) return false;
+      const l = lower[c] as number;
+      const u = upper[c] as number;
+      state.logLikelihood = Math.log(total) - Math.log(u - l);
+      out.mean = Math.min(
+        u,
+        Math.max(l, y + (s * ((density[a] as number) - (density[b] as number))) / total),
+      );
+      out.probNull = 0;
+      const tailAbove = (point: number, at: number): number =>
+        at <= l ? 1 : at >= u ? 0 : Math.min(1, mass(point, b) / total);
+      const positive = tailAbove(zero, 0);
+      out.probPositive = positive;
+      out.probNegative = 1 - positive;
+      for (let j = 0; j < thresholdPoint.length; j++)
+        out.above[j] = tailAbove(thresholdPoint[j] as number, thresholds[j] as number);
+      return true;
+    },
+  };
+  return state;
 }

@@ -305,16 +305,7 @@ function testColumns(tests: readonly ReviewTest[]): TestColumns {
   return { y: Float64Array.from(tests, (test) => test.y), s: Float64Array.from(tests, (test) => test.s) };
 }
 
-function sumOf(values: Float64Array): number {
-  let total = 0;
-  for (let i = 0; i < values.length; i++) total += values[i] as number;
-  return total;
-}
-
-/**
- * The program sums under one prior, from the probabilities-only kernel (no credible intervals:
- * the sums need only probabilities and means, and intervals are most of a posterior's cost).
- */
+/** The program sums under one prior (the sums kernel of posterior-sums.ts, no credible intervals). */
 function programSums(
   prior: EffectPrior,
   shipped: TestColumns,
@@ -322,25 +313,12 @@ function programSums(
   delta: number,
   practical: number | null,
 ): ProgramSums {
-  const thresholds = practical === null ? [delta] : [delta, practical];
-  const shippedPosteriors = posteriorProbabilityColumns(prior, shipped.y, shipped.s, thresholds);
-  const notShippedPosteriors = posteriorProbabilityColumns(prior, notShipped.y, notShipped.s, [delta]);
-  const count = shipped.y.length;
-  const falseWins = count - sumOf(shippedPosteriors.probAbove[0] as Float64Array);
-  const falseWinsPractical =
-    practical === null ? 0 : count - sumOf(shippedPosteriors.probAbove[1] as Float64Array);
-  return {
-    falseWins,
-    falseWinsPractical,
-    signErrors: sumOf(shippedPosteriors.probNegative),
-    realizedSum: sumOf(shippedPosteriors.mean),
-    missedWins: sumOf(notShippedPosteriors.probAbove[0] as Float64Array),
-  };
+  return programSumsUnderRefits([prior], shipped, notShipped, delta, practical)[0] as ProgramSums;
 }
 
 /**
- * programSums under each bootstrap refit: the refits share the fit's components, so each test's
- * component figures are computed once for all of them (posterior-sums.ts).
+ * The program sums under each of several priors: bootstrap refits share the fit's components, so
+ * each test's component figures are computed once for all of them (posterior-sums.ts).
  */
 function programSumsUnderRefits(
   priors: readonly EffectPrior[],

@@ -9,6 +9,7 @@ import { describe, expect, it } from "vitest";
 import type { EffectPrior, PriorComponent } from "../../src/stats/effect-prior.ts";
 import { posteriorProbabilityColumns } from "../../src/stats/posterior-probabilities.ts";
 import { posteriorSumsUnderPriors } from "../../src/stats/posterior-sums.ts";
+import { skewedComponents } from "../../src/stats/prior-grid.ts";
 import { createRandom } from "../../src/stats/random.ts";
 
 // Both paths add the same component figures with the same weights; only the order of rounding
@@ -69,6 +70,40 @@ describe("posteriorSumsUnderPriors", () => {
       const sum = sums[b] as (typeof sums)[number];
       expectRelativelyClose(`prior ${b} mean`, sum.mean, sumOf(columns.mean));
       expectRelativelyClose(`prior ${b} probNull`, sum.probNull, sumOf(columns.probNull));
+      expectRelativelyClose(`prior ${b} probNegative`, sum.probNegative, sumOf(columns.probNegative));
+      expectRelativelyClose(`prior ${b} probPositive`, sum.probPositive, sumOf(columns.probPositive));
+      thresholds.forEach((threshold, j) =>
+        expectRelativelyClose(
+          `prior ${b} probAbove(${threshold})`,
+          sum.probAbove[j] as number,
+          sumOf(columns.probAbove[j] as Float64Array),
+        ),
+      );
+    }
+  });
+
+  it("on the skewed family's uniforms (linear-space path), equals the summed columns too", () => {
+    const random = createRandom(20261207);
+    const count = 2000;
+    const y = Float64Array.from({ length: count }, (_, i) =>
+      i % 100 === 0 ? 3 * random.normal() : i % 7 === 0 ? 0.2 * random.normal() : 0.03 * random.normal(),
+    );
+    const s = Float64Array.from({ length: count }, () => 0.001 + 0.03 * random.uniform());
+    const components = skewedComponents({ y, s });
+    const priors: EffectPrior[] = Array.from({ length: 5 }, () => {
+      const raw = components.map((_, k) => (k === 0 ? 2 : random.uniform() < 0.6 ? 0 : random.uniform()));
+      const total = raw.reduce((sum, value) => sum + value, 0);
+      return {
+        family: "skewed",
+        components: components.map((component, k) => ({ component, weight: (raw[k] as number) / total })),
+      };
+    });
+    const thresholds = [0, 0.004];
+    const sums = posteriorSumsUnderPriors(priors, y, s, thresholds);
+    for (const [b, prior] of priors.entries()) {
+      const columns = posteriorProbabilityColumns(prior, y, s, thresholds);
+      const sum = sums[b] as (typeof sums)[number];
+      expectRelativelyClose(`prior ${b} mean`, sum.mean, sumOf(columns.mean));
       expectRelativelyClose(`prior ${b} probNegative`, sum.probNegative, sumOf(columns.probNegative));
       expectRelativelyClose(`prior ${b} probPositive`, sum.probPositive, sumOf(columns.probPositive));
       thresholds.forEach((threshold, j) =>
