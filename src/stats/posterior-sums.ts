@@ -227,14 +227,6 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
   const above = new Float64Array(points.length);
   const density = new Float64Array(points.length);
 
-  /** Mass of N(0, 1) between points a and b (a <= b), without cancellation across 0. */
-  const mass = (a: number, b: number): number =>
-    (z[a] as number) >= 0
-      ? (above[a] as number) - (above[b] as number)
-      : (z[b] as number) <= 0
-        ? (below[b] as number) - (below[a] as number)
-        : 1 - (below[a] as number) - (above[b] as number);
-
   const state = {
     count,
     isUniform,
@@ -254,7 +246,7 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
     summarize(c: number, y: number, s: number, out: ComponentSummary): boolean {
       const a = from[c] as number;
       const b = to[c] as number;
-      const total = mass(a, b);
+      const total = intervalMass(z, below, above, a, b);
       if (!(total > smallestLinearMass)) return false;
       const l = lower[c] as number;
       const u = upper[c] as number;
@@ -264,15 +256,36 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
         Math.max(l, y + (s * ((density[a] as number) - (density[b] as number))) / total),
       );
       out.probNull = 0;
-      const tailAbove = (point: number, at: number): number =>
-        at <= l ? 1 : at >= u ? 0 : Math.min(1, mass(point, b) / total);
-      const positive = tailAbove(zero, 0);
+      // P(theta > t) = mass of [t, u] / mass of [l, u] for t inside.
+      const positive = 0 <= l ? 1 : 0 >= u ? 0 : Math.min(1, intervalMass(z, below, above, zero, b) / total);
       out.probPositive = positive;
       out.probNegative = 1 - positive;
-      for (let j = 0; j < thresholdPoint.length; j++)
-        out.above[j] = tailAbove(thresholdPoint[j] as number, thresholds[j] as number);
+      for (let j = 0; j < thresholdPoint.length; j++) {
+        const at = thresholds[j] as number;
+        out.above[j] =
+          at <= l
+            ? 1
+            : at >= u
+              ? 0
+              : Math.min(1, intervalMass(z, below, above, thresholdPoint[j] as number, b) / total);
+      }
       return true;
     },
   };
   return state;
+}
+
+/** Mass of N(0, 1) between points a and b (z[a] <= z[b]), without cancellation across 0. */
+function intervalMass(
+  z: Float64Array,
+  below: Float64Array,
+  above: Float64Array,
+  a: number,
+  b: number,
+): number {
+  return (z[a] as number) >= 0
+    ? (above[a] as number) - (above[b] as number)
+    : (z[b] as number) <= 0
+      ? (below[b] as number) - (below[a] as number)
+      : 1 - (below[a] as number) - (above[b] as number);
 }
