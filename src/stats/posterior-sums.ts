@@ -81,6 +81,12 @@ export function posteriorSumsUnderPriors(
     return row;
   });
 
+  // Each prior's own components (refits are sparse): its loops run over these only.
+  const supports = weights.map((row) => {
+    const support: number[] = [];
+    for (let c = 0; c < k; c++) if ((row[c] as number) > 0) support.push(c);
+    return Int32Array.from(support);
+  });
   const thresholdCount = thresholds.length;
   const uniforms = uniformBounds(shared, thresholds);
   // Per result: each shared component's log-likelihood, scaled likelihood and figures.
@@ -127,8 +133,10 @@ export function posteriorSumsUnderPriors(
 
     for (let b = 0; b < priors.length; b++) {
       const w = weights[b] as Float64Array;
+      const support = supports[b] as Int32Array;
       let total = 0;
-      for (let c = 0; c < k; c++) {
+      for (let index = 0; index < support.length; index++) {
+        const c = support[index] as number;
         const part = (w[c] as number) * (likelihood[c] as number);
         share[c] = part;
         total += part;
@@ -136,15 +144,14 @@ export function posteriorSumsUnderPriors(
       if (!(total > smallestReliableTotal)) {
         // Log space for this prior's own components: their largest joint is the scale.
         let best = Number.NEGATIVE_INFINITY;
-        for (let c = 0; c < k; c++)
-          if ((w[c] as number) > 0)
-            best = Math.max(best, Math.log(w[c] as number) + (logLikelihood[c] as number));
+        for (let index = 0; index < support.length; index++) {
+          const c = support[index] as number;
+          best = Math.max(best, Math.log(w[c] as number) + (logLikelihood[c] as number));
+        }
         total = 0;
-        for (let c = 0; c < k; c++) {
-          const part =
-            (w[c] as number) > 0
-              ? Math.exp(Math.log(w[c] as number) + (logLikelihood[c] as number) - best)
-              : 0;
+        for (let index = 0; index < support.length; index++) {
+          const c = support[index] as number;
+          const part = Math.exp(Math.log(w[c] as number) + (logLikelihood[c] as number) - best);
           share[c] = part;
           total += part;
         }
@@ -154,7 +161,8 @@ export function posteriorSumsUnderPriors(
       let rowNegative = 0;
       let rowPositive = 0;
       rowAbove.fill(0);
-      for (let c = 0; c < k; c++) {
+      for (let index = 0; index < support.length; index++) {
+        const c = support[index] as number;
         const weight = (share[c] as number) / total;
         if (!(weight > 0)) continue;
         rowMean += weight * (mean[c] as number);
