@@ -59,6 +59,7 @@ const kindTruncated = 2;
 
 // Posterior components below this share are dropped: they cannot move any reported figure.
 const negligibleShare = 1e-15;
+const inverseSqrtTwoPi = 0.3989422804014327;
 
 /** A prior prepared for many evaluations: component parameters in typed arrays. */
 interface PreparedPrior {
@@ -91,6 +92,22 @@ interface Workspace {
   readonly pair: Float64Array;
   /** The mixture density and its slope at the last point of the quantile search. */
   readonly derivatives: Float64Array;
+  /**
+   * Uniform components in linear space: the posterior mass Z of [l, u] under N(y, s^2) (0 marks a
+   * component left to log space), and at each bound the standardized value, both tails and the
+   * density, so that a cdf or density of such a component costs arithmetic (uniformTails).
+   */
+  readonly linearMass: Float64Array;
+  readonly lowerZ: Float64Array;
+  readonly lowerBelow: Float64Array;
+  readonly lowerAbove: Float64Array;
+  readonly lowerDensity: Float64Array;
+  readonly upperZ: Float64Array;
+  readonly upperBelow: Float64Array;
+  readonly upperAbove: Float64Array;
+  readonly upperDensity: Float64Array;
+  /** Scratch of gaussianTails: [below, above, density]. */
+  readonly tails: Float64Array;
 }
 
 export function posteriorOf(
@@ -315,6 +332,16 @@ function createWorkspace(capacity: number): Workspace {
     logLikelihood: new Float64Array(capacity),
     pair: new Float64Array(2),
     derivatives: new Float64Array(2),
+    linearMass: new Float64Array(capacity),
+    lowerZ: new Float64Array(capacity),
+    lowerBelow: new Float64Array(capacity),
+    lowerAbove: new Float64Array(capacity),
+    lowerDensity: new Float64Array(capacity),
+    upperZ: new Float64Array(capacity),
+    upperBelow: new Float64Array(capacity),
+    upperAbove: new Float64Array(capacity),
+    upperDensity: new Float64Array(capacity),
+    tails: new Float64Array(3),
   };
 }
 
@@ -336,11 +363,13 @@ function fillPosterior(prior: PreparedPrior, y: number, s: number, workspace: Wo
       const z = (y - location) / Math.sqrt(variance);
       logLikelihood = normalLogPdf(z) - 0.5 * Math.log(variance);
     } else if (Number.isNaN(scale)) {
-      logLikelihood = componentLogLikelihood(
-        { kind: "uniform", lower: prior.lower[c] as number, upper: prior.upper[c] as number },
-        y,
-        s,
-      );
+      const lower = prior.lower[c] as number;
+      const upper = prior.upper[c] as number;
+      const mass = linearUniformMass(workspace, c, (lower - y) / s, (upper - y) / s);
+      logLikelihood =
+        mass > 0
+          ? Math.log(mass) - Math.log(prior.uniformWidth[c] as number)
+          : componentLogLikelihood({ kind: "uniform", lower, upper }, y, s);
     } else {
       const variance = seVariance + scale * scale;
       const posteriorMean = (location * seVariance + y * scale * scale) / variance;
@@ -389,7 +418,21 @@ function fillPosterior(prior: PreparedPrior, y: number, s: number, workspace: Wo
       workspace.location[count] = (location * seVariance + y * scale * scale) / variance;
       workspace.scale[count] = (scale * s) / Math.sqrt(variance);
     }
-    if (kind === kindTruncated) {
+    const linearMass =
+      kind === kindTruncated && Number.isNaN(scale) ? (workspace.linearMass[c] as number) : 0;
+    workspace.linearMass[count] = linearMass;
+    if (linearMass > 0) {
+      // Slot count <= c: copy the uniform's linear-space values down.
+      workspace.lowerZ[count] = workspace.lowerZ[c] as number;
+      workspace.lowerBelow[count] = workspace.lowerBelow[c] as number;
+      workspace.lowerAbove[count] = workspace.lowerAbove[c] as number;
+      workspace.lowerDensity[count] = workspace.lowerDensity[c] as number;
+      workspace.upperZ[count] = workspace.upperZ[c] as number;
+      workspace.upperBelow[count] = workspace.upperBelow[c] as number;
+      workspace.upperAbove[count] = workspace.upperAbove[c] as number;
+      workspace.upperDensity[count] = workspace.upperDensity[c] as number;
+      workspace.logMass[count] = Math.log(linearMass);
+    } else if (kind === kindTruncated) {
       const m = workspace.location[count] as number;
       const sc = workspace.scale[count] as number;
       workspace.logMass[count] = logNormalIntervalProbability(
@@ -404,6 +447,88 @@ function fillPosterior(prior: PreparedPrior, y: number, s: number, workspace: Wo
   for (let c = 0; c < count; c++) kept += workspace.weight[c] as number;
   for (let c = 0; c < count; c++) workspace.weight[c] = (workspace.weight[c] as number) / kept;
   workspace.count = count;
+}
+
+// ---- uniform components in linear space ---------------------------------------------------
+
+// A uniform's posterior mass below this, or a bound this many standard errors beyond the data on
+// the far side (where the moments need the one-sided continued fraction), stays in log space.
+const smallestLinearMass = 1e-280;
+const linearTailLimit = 8;
+
+/**
+ * For prior component c, a uniform with standardized bounds a = (l - y)/s and b = (u - y)/s: stores
+ * both tails and the density at each bound in slot c and returns the posterior mass
+ * Phi(b) - Phi(a), taken as the difference of the tails on the interval's side of 0 (as
+ * logNormalIntervalProbability does), or 0 when it must stay in log space.
+ */
+function linearUniformMass(workspace: Workspace, c: number, a: number, b: number): number {
+  workspace.linearMass[c] = 0;
+  if (a >= linearTailLimit || b <= -linearTailLimit) return 0;
+  gaussianTails(a, workspace.tails);
+  workspace.lowerZ[c] = a;
+  workspace.lowerBelow[c] = workspace.tails[0] as number;
+  workspace.lowerAbove[c] = workspace.tails[1] as number;
+  workspace.lowerDensity[c] = workspace.tails[2] as number;
+  gaussianTails(b, workspace.tails);
+  workspace.upperZ[c] = b;
+  workspace.upperBelow[c] = workspace.tails[0] as number;
+  workspace.upperAbove[c] = workspace.tails[1] as number;
+  workspace.upperDensity[c] = workspace.tails[2] as number;
+  const mass = gaussianMass(
+    a,
+    workspace.lowerBelow[c] as number,
+    workspace.lowerAbove[c] as number,
+    b,
+    workspace.upperBelow[c] as number,
+    workspace.upperAbove[c] as number,
+  );
+  if (!(mass > smallestLinearMass)) return 0;
+  workspace.linearMass[c] = mass;
+  return mass;
+}
+
+/** [Phi(z), 1 - Phi(z), phi(z)] into out, the smaller tail to full relative accuracy. */
+function gaussianTails(z: number, out: Float64Array): void {
+  if (z === Number.NEGATIVE_INFINITY || z === Number.POSITIVE_INFINITY) {
+    out[0] = z > 0 ? 1 : 0;
+    out[1] = z > 0 ? 0 : 1;
+    out[2] = 0;
+    return;
+  }
+  normalCdfAndDensity(-Math.abs(z), out);
+  const smaller = out[0] as number;
+  out[2] = out[1] as number;
+  out[0] = z < 0 ? smaller : 1 - smaller;
+  out[1] = z < 0 ? 1 - smaller : smaller;
+}
+
+/** Phi(b) - Phi(a) for a <= b from both tails at each, without cancellation across 0. */
+function gaussianMass(
+  a: number,
+  belowA: number,
+  aboveA: number,
+  b: number,
+  belowB: number,
+  aboveB: number,
+): number {
+  if (a >= 0) return aboveA - aboveB;
+  if (b <= 0) return belowB - belowA;
+  return 1 - belowA - aboveB;
+}
+
+/** P(component c < t) for a linear-space uniform, with the tails at z_t in workspace.tails. */
+function linearUniformLowerTail(workspace: Workspace, c: number, zt: number): number {
+  const tails = workspace.tails;
+  const mass = gaussianMass(
+    workspace.lowerZ[c] as number,
+    workspace.lowerBelow[c] as number,
+    workspace.lowerAbove[c] as number,
+    zt,
+    tails[0] as number,
+    tails[1] as number,
+  );
+  return Math.min(1, Math.max(0, mass / (workspace.linearMass[c] as number)));
 }
 
 // ---- moments, tails and quantiles of the mixture ---------------------------------------------
@@ -465,6 +590,20 @@ function componentUpperTail(workspace: Workspace, c: number, t: number): number 
   const u = workspace.upper[c] as number;
   if (t <= l) return 1;
   if (t >= u) return 0;
+  if ((workspace.linearMass[c] as number) > 0) {
+    const zt = (t - m) / sc;
+    gaussianTails(zt, workspace.tails);
+    const tails = workspace.tails;
+    const mass = gaussianMass(
+      zt,
+      tails[0] as number,
+      tails[1] as number,
+      workspace.upperZ[c] as number,
+      workspace.upperBelow[c] as number,
+      workspace.upperAbove[c] as number,
+    );
+    return Math.min(1, Math.max(0, mass / (workspace.linearMass[c] as number)));
+  }
   return Math.exp(
     logNormalIntervalProbability((t - m) / sc, (u - m) / sc) - (workspace.logMass[c] as number),
   );
@@ -481,6 +620,11 @@ function componentLowerTail(workspace: Workspace, c: number, t: number): number 
   const u = workspace.upper[c] as number;
   if (t <= l) return 0;
   if (t >= u) return 1;
+  if ((workspace.linearMass[c] as number) > 0) {
+    const zt = (t - m) / sc;
+    gaussianTails(zt, workspace.tails);
+    return linearUniformLowerTail(workspace, c, zt);
+  }
   return Math.exp(
     logNormalIntervalProbability((l - m) / sc, (t - m) / sc) - (workspace.logMass[c] as number),
   );
@@ -494,6 +638,8 @@ function componentDensity(workspace: Workspace, c: number, t: number): number {
   const z = (t - m) / sc;
   if (kind === kindNormal) return Math.exp(normalLogPdf(z)) / sc;
   if (t < (workspace.lower[c] as number) || t > (workspace.upper[c] as number)) return 0;
+  if ((workspace.linearMass[c] as number) > 0)
+    return (inverseSqrtTwoPi * Math.exp(-0.5 * z * z)) / (sc * (workspace.linearMass[c] as number));
   return Math.exp(normalLogPdf(z) - (workspace.logMass[c] as number)) / sc;
 }
 
@@ -520,6 +666,7 @@ function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
   let total = 0;
   let density = 0;
   let slope = 0;
+  let sharedZ = Number.NaN;
   for (let c = 0; c < workspace.count; c++) {
     const weight = workspace.weight[c] as number;
     if (workspace.kind[c] === kindNormal) {
@@ -529,6 +676,26 @@ function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
       normalCdfAndDensity(z, workspace.pair);
       total += weight * (workspace.pair[0] as number);
       const part = (weight * (workspace.pair[1] as number)) / sc;
+      density += part;
+      slope -= (part * z) / sc;
+    } else if ((workspace.linearMass[c] as number) > 0) {
+      // Every uniform's posterior is N(y, s^2) restricted: z_t and its tails are shared.
+      const m = workspace.location[c] as number;
+      const sc = workspace.scale[c] as number;
+      const l = workspace.lower[c] as number;
+      const u = workspace.upper[c] as number;
+      if (t <= l) continue;
+      if (t >= u) {
+        total += weight;
+        continue;
+      }
+      const z = (t - m) / sc;
+      if (z !== sharedZ) {
+        gaussianTails(z, workspace.tails);
+        sharedZ = z;
+      }
+      total += weight * linearUniformLowerTail(workspace, c, z);
+      const part = (weight * (workspace.tails[2] as number)) / (sc * (workspace.linearMass[c] as number));
       density += part;
       slope -= (part * z) / sc;
     } else {
@@ -592,6 +759,21 @@ function summarizeInto(
     let componentVariance = 0;
     if (kind === kindNormal) {
       componentVariance = (workspace.scale[c] as number) ** 2;
+      pointMassOnly = false;
+    } else if (kind === kindTruncated && (workspace.linearMass[c] as number) > 0) {
+      // Truncated-normal moments from the bound densities over the mass (no far tail here).
+      const sc = workspace.scale[c] as number;
+      const mass = workspace.linearMass[c] as number;
+      const alpha = workspace.lowerZ[c] as number;
+      const beta = workspace.upperZ[c] as number;
+      const ratioLower = (workspace.lowerDensity[c] as number) / mass;
+      const ratioUpper = (workspace.upperDensity[c] as number) / mass;
+      const shift = ratioLower - ratioUpper;
+      const l = workspace.lower[c] as number;
+      const u = workspace.upper[c] as number;
+      componentMean = Math.min(u, Math.max(l, componentMean + sc * shift));
+      const spread = 1 + alpha * ratioLower - beta * ratioUpper - shift * shift;
+      componentVariance = spread > 0 ? sc * sc * spread : ((u - l) * (u - l)) / 12;
       pointMassOnly = false;
     } else if (kind === kindTruncated) {
       [componentMean, componentVariance] = truncatedMoments(
