@@ -72,13 +72,12 @@ describe("posteriorSumsUnderPriors", () => {
       expectRelativelyClose(`prior ${b} probNull`, sum.probNull, sumOf(columns.probNull));
       expectRelativelyClose(`prior ${b} probNegative`, sum.probNegative, sumOf(columns.probNegative));
       expectRelativelyClose(`prior ${b} probPositive`, sum.probPositive, sumOf(columns.probPositive));
-      thresholds.forEach((threshold, j) =>
+      for (const [j, threshold] of thresholds.entries())
         expectRelativelyClose(
           `prior ${b} probAbove(${threshold})`,
           sum.probAbove[j] as number,
           sumOf(columns.probAbove[j] as Float64Array),
-        ),
-      );
+        );
     }
   });
 
@@ -106,13 +105,12 @@ describe("posteriorSumsUnderPriors", () => {
       expectRelativelyClose(`prior ${b} mean`, sum.mean, sumOf(columns.mean));
       expectRelativelyClose(`prior ${b} probNegative`, sum.probNegative, sumOf(columns.probNegative));
       expectRelativelyClose(`prior ${b} probPositive`, sum.probPositive, sumOf(columns.probPositive));
-      thresholds.forEach((threshold, j) =>
+      for (const [j, threshold] of thresholds.entries())
         expectRelativelyClose(
           `prior ${b} probAbove(${threshold})`,
           sum.probAbove[j] as number,
           sumOf(columns.probAbove[j] as Float64Array),
-        ),
-      );
+        );
     }
   });
 
