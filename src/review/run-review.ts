@@ -22,6 +22,7 @@ import { likelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { defaultThetaGridPointCount, thetaGridComponents } from "../stats/prior-grid.ts";
 import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
 import { createRandom } from "../stats/random.ts";
+import { PriorWorker, refitsSharedWithWorker } from "./prior-worker-pool.ts";
 import { readReviewData } from "./read-review-data.ts";
 import {
   readCache,
@@ -159,39 +160,63 @@ export async function runReview(
   // A large history fits the grid sensitivity row on a coarser grid (its cost grows with
   // tests x points); the grid is never the chosen family under "auto", so only that row moves.
   const coarseGrid = included.length > largeHistoryTests;
-  const fitAlternative = (family: FitFamily): FamilyFit =>
-    family === "grid" && coarseGrid
-      ? coarseGridFit(observations, settings.nullWeight ?? defaultNullWeight)
-      : fitEffectPrior(observations, { ...fitOptions, family });
+  const nullWeight = settings.nullWeight ?? defaultNullWeight;
+  const columns = observationColumns(observations);
+  // A large history also gets a second thread: the coarse grid fit, then a share of the refits.
+  const worker = coarseGrid ? PriorWorker.start(columns.y, columns.s) : null;
   let fit: PriorFit;
-  if (settings.priorFamily === "auto" && coarseGrid) {
-    // The rule of fitEffectPrior's "auto": the better of symmetric and skewed by log-likelihood.
-    const symmetric = fitEffectPrior(observations, { ...fitOptions, family: "symmetric" });
-    const skewed = fitEffectPrior(observations, { ...fitOptions, family: "skewed" });
-    const chosen = skewed.logLik > symmetric.logLik ? skewed : symmetric;
-    fit = { ...chosen, alternatives: [symmetric, skewed, fitAlternative("grid")] };
-  } else fit = fitEffectPrior(observations, { ...fitOptions, family: settings.priorFamily });
-  // Sensitivity: the other families, as fitted alongside ("auto") or fitted here.
-  const alternatives =
-    fit.alternatives ??
-    (["symmetric", "skewed", "grid"] as const).filter((family) => family !== fit.family).map(fitAlternative);
-  const gridRowCoarse = coarseGrid && fit.family !== "grid";
-  const lowered =
-    request.bootstrap === undefined &&
-    included.length > largeHistoryTests &&
-    settings.bootstrap > largeHistoryBootstrapRefits;
-  const refitCount = lowered ? largeHistoryBootstrapRefits : settings.bootstrap;
+  let alternatives: FamilyFit[];
   let bootstrapPriors: readonly EffectPrior[] = [];
-  if (refitCount > 0) {
-    progress(`refitting the prior to ${refitCount} bootstrap resamples`);
-    bootstrapPriors = bootstrapPrior(observations, fit, {
-      replicates: refitCount,
-      // Its own stream, so that the bootstrap and Lee & Shen's draws do not depend on each other.
-      seed: settings.seed + 7919,
-      onProgress: (done, total) => {
-        if (done % 10 === 0 || done === total) progress(`bootstrap refit ${done} of ${total}`);
-      },
-    }).priors;
+  let gridRowCoarse: boolean;
+  let lowered: boolean;
+  try {
+    const gridFromWorker =
+      worker && settings.priorFamily !== "grid"
+        ? worker.fitCoarseGrid(largeHistoryGridPoints, nullWeight).catch(() => null)
+        : null;
+    const coarseGridAlternative = async (): Promise<FamilyFit> =>
+      (await gridFromWorker) ?? coarseGridFit(observations, nullWeight);
+    if (settings.priorFamily === "auto" && coarseGrid) {
+      // The rule of fitEffectPrior's "auto": the better of symmetric and skewed by log-likelihood.
+      const symmetric = fitEffectPrior(observations, { ...fitOptions, family: "symmetric" });
+      const skewed = fitEffectPrior(observations, { ...fitOptions, family: "skewed" });
+      const chosen = skewed.logLik > symmetric.logLik ? skewed : symmetric;
+      fit = chosen;
+      alternatives = [symmetric, skewed];
+    } else {
+      fit = fitEffectPrior(observations, { ...fitOptions, family: settings.priorFamily });
+      // Sensitivity: the other families, as fitted alongside ("auto") or fitted here.
+      alternatives = fit.alternatives
+        ? [...fit.alternatives]
+        : (["symmetric", "skewed", "grid"] as const)
+            .filter((family) => family !== fit.family && !(family === "grid" && coarseGrid))
+            .map((family) => fitEffectPrior(observations, { ...fitOptions, family }));
+    }
+    gridRowCoarse = coarseGrid && fit.family !== "grid";
+    lowered =
+      request.bootstrap === undefined &&
+      included.length > largeHistoryTests &&
+      settings.bootstrap > largeHistoryBootstrapRefits;
+    const refitCount = lowered ? largeHistoryBootstrapRefits : settings.bootstrap;
+    // Its own stream, so that the bootstrap and Lee & Shen's draws do not depend on each other.
+    const bootstrapSeed = settings.seed + 7919;
+    const onRefit = (done: number, total: number) => {
+      if (done % 10 === 0 || done === total) progress(`bootstrap refit ${done} of ${total}`);
+    };
+    if (refitCount > 0) {
+      progress(`refitting the prior to ${refitCount} bootstrap resamples`);
+      bootstrapPriors = worker
+        ? await refitsSharedWithWorker(worker, columns.y, columns.s, fit, refitCount, bootstrapSeed, onRefit)
+        : bootstrapPrior(observations, fit, {
+            replicates: refitCount,
+            seed: bootstrapSeed,
+            onProgress: onRefit,
+          }).priors;
+    }
+    if (gridRowCoarse) alternatives.push(await coarseGridAlternative());
+    if (settings.priorFamily === "auto" && coarseGrid) fit = { ...fit, alternatives };
+  } finally {
+    worker?.close();
   }
   progress("computing the review");
   const review = programReview({

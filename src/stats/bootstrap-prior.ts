@@ -9,8 +9,14 @@
  */
 import type { EffectPrior } from "./effect-prior.ts";
 import { requireOpenUnit, StatsInputError } from "./errors.ts";
-import { fitOnMatrix, type Observation, observationColumns, type PriorFit } from "./fit-effect-prior.ts";
-import { likelihoodMatrix } from "./likelihood-matrix.ts";
+import {
+  type FamilyFit,
+  fitOnMatrix,
+  type Observation,
+  observationColumns,
+  type PriorFit,
+} from "./fit-effect-prior.ts";
+import { type LikelihoodMatrix, likelihoodMatrix } from "./likelihood-matrix.ts";
 import { type PriorSummary, summarizePrior } from "./prior-summary.ts";
 import { createRandom, type RandomSource } from "./random.ts";
 
@@ -78,28 +84,7 @@ export function bootstrapPrior(
   const summaries: PriorSummary[] = [];
   let convergedCount = 0;
   for (let b = 0; b < replicates; b++) {
-    counts.fill(0);
-    for (let draw = 0; draw < count; draw++) {
-      const index = random.integer(count);
-      counts[index] = (counts[index] as number) + 1;
-    }
-    let distinct = 0;
-    for (let i = 0; i < count; i++) if ((counts[i] as number) > 0) distinct++;
-    const rows = new Int32Array(distinct);
-    const rowWeights = new Float64Array(distinct);
-    let position = 0;
-    for (let i = 0; i < count; i++) {
-      if ((counts[i] as number) > 0) {
-        rows[position] = i;
-        rowWeights[position] = counts[i] as number;
-        position++;
-      }
-    }
-    const refit = fitOnMatrix(matrix, fit.grid, fit.family, fit.nullWeight, {
-      rows,
-      rowWeights,
-      initialWeights: fit.componentWeights,
-    });
+    const refit = refitResample(matrix, fit, drawResample(count, random, counts));
     if (refit.converged) convergedCount++;
     priors.push(refit.prior);
     summaries.push(summarizePrior(refit.prior, { threshold, densityPoints: 2 }));
@@ -124,6 +109,51 @@ export function bootstrapPrior(
     priors,
     convergedCount,
   };
+}
+
+/** One bootstrap resample as rows of the likelihood matrix with their multiplicities. */
+export interface Resample {
+  readonly rows: Int32Array;
+  readonly rowWeights: Float64Array;
+}
+
+/**
+ * Draws the next resample of `count` results from `random` (count draws with replacement);
+ * `counts` is scratch of length count. Resamples drawn in turn from one seeded generator are the
+ * ones bootstrapPrior refits, so a caller can draw them first and refit them in any order.
+ */
+export function drawResample(count: number, random: RandomSource, counts: Int32Array): Resample {
+  counts.fill(0);
+  for (let draw = 0; draw < count; draw++) {
+    const index = random.integer(count);
+    counts[index] = (counts[index] as number) + 1;
+  }
+  let distinct = 0;
+  for (let i = 0; i < count; i++) if ((counts[i] as number) > 0) distinct++;
+  const rows = new Int32Array(distinct);
+  const rowWeights = new Float64Array(distinct);
+  let position = 0;
+  for (let i = 0; i < count; i++) {
+    if ((counts[i] as number) > 0) {
+      rows[position] = i;
+      rowWeights[position] = counts[i] as number;
+      position++;
+    }
+  }
+  return { rows, rowWeights };
+}
+
+/** The refit of one resample: the full-data grid, warm-started from the full-data weights. */
+export function refitResample(
+  matrix: LikelihoodMatrix,
+  fit: Pick<PriorFit, "grid" | "family" | "nullWeight" | "componentWeights">,
+  resample: Resample,
+): FamilyFit {
+  return fitOnMatrix(matrix, fit.grid, fit.family, fit.nullWeight, {
+    rows: resample.rows,
+    rowWeights: resample.rowWeights,
+    initialWeights: fit.componentWeights,
+  });
 }
 
 /** Percentile interval (R quantile type 7 on the sorted replicates) and the replicate sd. */
