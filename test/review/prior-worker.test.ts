@@ -49,4 +49,14 @@ describe("prior worker", () => {
     expect(shared).toEqual(alone);
     expect(progress).toEqual([1, 2, 3, 4, 5, 6, 7, 8]);
   }, 60_000);
+
+  it("falls back to this thread when the worker has stopped", async () => {
+    const stopped = PriorWorker.start(columns.y, columns.s) as PriorWorker;
+    stopped.close();
+    await new Promise((resolve) => setTimeout(resolve, 200));
+    const fit = fitEffectPrior(observations, { family: "symmetric" });
+    const shared = await refitsSharedWithWorker(stopped, columns.y, columns.s, fit, 4, 5, () => undefined);
+    expect(shared).toEqual(bootstrapPrior(observations, fit, { replicates: 4, seed: 5 }).priors);
+    await expect(stopped.fitCoarseGrid(30, 10)).rejects.toThrow(/stopped/);
+  }, 60_000);
 });
