@@ -752,6 +752,9 @@ function summarizeInto(
   let probNull = 0;
   let probNegative = 0;
   let pointMassOnly = true;
+  let continuousWeight = 0;
+  let continuousMean = 0;
+  let continuousSecond = 0;
   for (let c = 0; c < workspace.count; c++) {
     const weight = workspace.weight[c] as number;
     const kind = workspace.kind[c] as number;
@@ -787,6 +790,11 @@ function summarizeInto(
     }
     mean += weight * componentMean;
     secondMoment += weight * (componentVariance + componentMean * componentMean);
+    if (kind !== kindPoint) {
+      continuousWeight += weight;
+      continuousMean += weight * componentMean;
+      continuousSecond += weight * (componentVariance + componentMean * componentMean);
+    }
     if (kind === kindPoint && componentMean === 0) probNull += weight;
     else if (kind === kindNormal) {
       // One cdf call for both sides: the smaller tail is computed directly (full relative
@@ -806,15 +814,19 @@ function summarizeInto(
   // P(theta < 0) as summed above is the mixture cdf just below an atom at 0, which the quantile
   // search needs; it is passed on rather than summed again.
   const belowZero = probNegative;
-  out.lower[index] = mixtureQuantile(workspace, tailShare, mean - upperZ * sd, sd, pointMassOnly, belowZero);
-  out.upper[index] = mixtureQuantile(
-    workspace,
-    1 - tailShare,
-    mean + upperZ * sd,
-    sd,
-    pointMassOnly,
-    belowZero,
-  );
+  let lowerStart = mean - upperZ * sd;
+  let upperStart = mean + upperZ * sd;
+  if (probNull > 0 && continuousWeight > 0) {
+    const centre = continuousMean / continuousWeight;
+    const spread = Math.sqrt(Math.max(0, continuousSecond / continuousWeight - centre * centre));
+    const upperP = 1 - tailShare;
+    const lowerShare = (tailShare > belowZero ? tailShare - probNull : tailShare) / continuousWeight;
+    const upperShare = (upperP > belowZero ? upperP - probNull : upperP) / continuousWeight;
+    lowerStart = centre + spread * normalQuantile(Math.min(1 - 1e-12, Math.max(1e-12, lowerShare)));
+    upperStart = centre + spread * normalQuantile(Math.min(1 - 1e-12, Math.max(1e-12, upperShare)));
+  }
+  out.lower[index] = mixtureQuantile(workspace, tailShare, lowerStart, sd, pointMassOnly, belowZero);
+  out.upper[index] = mixtureQuantile(workspace, 1 - tailShare, upperStart, sd, pointMassOnly, belowZero);
   probPositive = clampProbability(probPositive);
   probNegative = clampProbability(probNegative);
   probNull = clampProbability(probNull);
@@ -828,6 +840,19 @@ function summarizeInto(
 
 function clampProbability(value: number): number {
   return Math.min(1, Math.max(0, value));
+}
+
+/** Whether a truncated component's bound lies strictly between a and b (in either order). */
+function boundBetween(workspace: Workspace, a: number, b: number): boolean {
+  const from = Math.min(a, b);
+  const to = Math.max(a, b);
+  for (let c = 0; c < workspace.count; c++) {
+    if (workspace.kind[c] !== kindTruncated) continue;
+    const l = workspace.lower[c] as number;
+    const u = workspace.upper[c] as number;
+    if ((l > from && l < to) || (u > from && u < to)) return true;
+  }
+  return false;
 }
 
 /**
@@ -900,8 +925,10 @@ function mixtureQuantile(
     let next = density > 0 ? t - (halley ? newtonStep / correction : newtonStep) : Number.NaN;
     if (!(next > low && next < high)) next = 0.5 * (low + high);
     // Close to p the step's own error is far below the stopping rule: within 1e-8 Newton's error
-    // is of order (1e-8)^2, within 1e-6 Halley's of order (1e-6)^3. Take the step and stop.
-    else if (Math.abs(excess) <= (halley ? 1e-6 : 1e-8)) return next;
+    // is of order (1e-8)^2, within 1e-6 Halley's of order (1e-6)^3, so the step is taken and the
+    // search stops; unless a truncated component's bound lies between t and the step, where the
+    // density jumps and those error orders do not hold.
+    else if (Math.abs(excess) <= (halley ? 1e-6 : 1e-8) && !boundBetween(workspace, t, next)) return next;
     if (Math.abs(next - t) <= resolution || high - low <= resolution) return next;
     t = next;
   }

@@ -3,7 +3,7 @@ import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import type { EffectPrior } from "../../src/stats/effect-prior.ts";
 import { fitEffectPrior } from "../../src/stats/fit-effect-prior.ts";
-import { posteriorOf } from "../../src/stats/posterior.ts";
+import { posteriorOf, posteriorProbabilityAbove } from "../../src/stats/posterior.ts";
 
 const scale = fc.double({ min: 0.001, max: 0.1, noNaN: true });
 const weight = fc.double({ min: 0.01, max: 1, noNaN: true });
@@ -42,6 +42,20 @@ const skewedPrior = fc
     };
   });
 
+/** The prior of -theta. */
+function mirrored(prior: EffectPrior): EffectPrior {
+  return {
+    family: prior.family,
+    components: prior.components.map(({ component, weight }) => {
+      if (component.kind === "point") return { component: { kind: "point", at: -component.at }, weight };
+      if (component.kind === "uniform")
+        return { component: { kind: "uniform", lower: -component.upper, upper: -component.lower }, weight };
+      if (component.kind === "normal") return { component: { ...component, mean: -component.mean }, weight };
+      throw new Error(`mirrored: ${component.kind} is not used here`);
+    }),
+  };
+}
+
 describe("posterior properties", () => {
   it("under a symmetric prior the posterior mean lies between 0 and y", () => {
     fc.assert(
@@ -67,6 +81,47 @@ describe("posterior properties", () => {
           result.lfsr <= 0.5 + result.probNull
         );
       }),
+    );
+  });
+
+  it("the credible bounds invert the posterior cdf, also where a uniform's bound is near them", () => {
+    // The quantile search against bisection on P(theta > t) (posteriorProbabilityAbove, which
+    // does not search): F(lower) = (1 - level)/2 and F(upper) = (1 + level)/2 to 1e-9 of the
+    // posterior sd, wherever the posterior has density at the bound (an atom's jump returns the atom).
+    const level = fc.constantFrom(0.5, 0.8, 0.9, 0.95);
+    fc.assert(
+      fc.property(
+        fc.oneof(symmetricPrior, skewedPrior),
+        estimate,
+        standardError,
+        level,
+        (prior, y, s, lvl) => {
+          const result = posteriorOf(prior, y, s, lvl);
+          for (const [bound, p] of [
+            [result.lower, (1 - lvl) / 2],
+            [result.upper, (1 + lvl) / 2],
+          ] as const) {
+            if (bound === 0) continue;
+            // F(t) = 1 - P(theta > t) for t > 0; for t < 0, P(theta < t) = P(-theta > -t), the
+            // upper tail under the mirrored prior and -y (posteriorProbabilityAbove takes t >= 0).
+            const cdf = (at: number): number =>
+              at > 0
+                ? 1 - posteriorProbabilityAbove(prior, y, s, at)
+                : posteriorProbabilityAbove(mirrored(prior), -y, s, -at);
+            // Bisect on the bound's side of 0 (the atom at 0 is a jump).
+            let low = bound < 0 ? bound - 10 * result.sd - 1 : 0;
+            let high = bound < 0 ? 0 : bound + 10 * result.sd + 1;
+            for (let step = 0; step < 200; step++) {
+              const middle = 0.5 * (low + high);
+              if (cdf(middle) >= p) high = middle;
+              else low = middle;
+            }
+            if (!(Math.abs(high - bound) <= 1e-9 * result.sd + 1e-15)) return false;
+          }
+          return true;
+        },
+      ),
+      { numRuns: 300 },
     );
   });
 
