@@ -163,7 +163,10 @@ export async function runReview(
   const nullWeight = settings.nullWeight ?? defaultNullWeight;
   const columns = observationColumns(observations);
   // A large history also gets a second thread: the coarse grid fit, then a share of the refits.
-  const worker = coarseGrid ? PriorWorker.start(columns.y, columns.s) : null;
+  const worker =
+    coarseGrid && (settings.priorFamily !== "grid" || settings.bootstrap > 0)
+      ? PriorWorker.start(columns.y, columns.s)
+      : null;
   let fit: PriorFit;
   let alternatives: FamilyFit[];
   let bootstrapPriors: readonly EffectPrior[] = [];
