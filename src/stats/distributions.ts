@@ -174,6 +174,42 @@ export function normalCdfAndDensity(x: number, out: Float64Array): void {
   }
 }
 
+/**
+ * [Phi(z), 1 - Phi(z), phi(z)] into out[0..2], the smaller tail to full relative accuracy and the
+ * larger as its complement (for differences of tails that must not cancel: normalIntervalMass).
+ */
+export function normalTails(z: number, out: Float64Array): void {
+  if (z === Number.NEGATIVE_INFINITY || z === Number.POSITIVE_INFINITY) {
+    out[0] = z > 0 ? 1 : 0;
+    out[1] = z > 0 ? 0 : 1;
+    out[2] = 0;
+    return;
+  }
+  normalCdfAndDensity(-Math.abs(z), out);
+  const smaller = out[0] as number;
+  out[2] = out[1] as number;
+  out[0] = z < 0 ? smaller : 1 - smaller;
+  out[1] = z < 0 ? 1 - smaller : smaller;
+}
+
+/**
+ * Phi(b) - Phi(a) for a <= b from both tails at each (normalTails): the difference of the tails on
+ * the interval's side of 0, so that nothing cancels more than the interval's own narrowness requires
+ * (the split logNormalIntervalProbability makes in log space).
+ */
+export function normalIntervalMass(
+  a: number,
+  belowA: number,
+  aboveA: number,
+  b: number,
+  belowB: number,
+  aboveB: number,
+): number {
+  if (a >= 0) return aboveA - aboveB;
+  if (b <= 0) return belowB - belowA;
+  return 1 - belowA - aboveB;
+}
+
 /** Upper tail 1 - Phi(x), computed without cancellation. */
 export function normalSurvival(x: number): number {
   return normalCdf(-x);

@@ -12,7 +12,8 @@
  * (componentLogLikelihood). Memory: 8 N K bytes plus 8 N for the row maxima.
  */
 import { componentLogLikelihood } from "./component-likelihood.ts";
-import { normalCdf } from "./distributions.ts";
+import { DistinctValues } from "./distinct-values.ts";
+import { normalIntervalMass, normalPdf, normalTails } from "./distributions.ts";
 import type { PriorComponent } from "./effect-prior.ts";
 
 export interface LikelihoodMatrix {
@@ -25,7 +26,6 @@ export interface LikelihoodMatrix {
 }
 
 const logSqrtTwoPi = 0.9189385332046728;
-const inverseSqrtTwoPi = 0.3989422804014327;
 // Below this a row maximum computed in linear space has lost precision to gradual underflow.
 const smallestSafeMaximum = 1e-280;
 
@@ -81,22 +81,15 @@ function fillGaussian(
       values[offset + k] = value;
       if (value > maximum) maximum = value;
     }
-    if (maximum > smallestSafeMaximum && maximum < Number.POSITIVE_INFINITY) {
-      const inverse = 1 / maximum;
-      for (let k = 0; k < columns; k++) values[offset + k] = (values[offset + k] as number) * inverse;
-      logRowMax[i] = Math.log(maximum) - logSqrtTwoPi;
-    } else {
-      fillRowInLogSpace(yi, si, components, values, logRowMax, i);
-    }
+    if (scaleRow(values, offset, columns, maximum)) logRowMax[i] = Math.log(maximum) - logSqrtTwoPi;
+    else fillRowInLogSpace(yi, si, components, values, logRowMax, i);
   }
 }
 
 /**
  * Points and uniforms in linear space: a point at a gives phi((y - a)/s)/s, a uniform on [l, u]
- * gives (Phi((u - y)/s) - Phi((l - y)/s))/(u - l). Each distinct bound's cdf is taken once a row,
- * as both tails (the smaller one to full relative accuracy), and an interval is the difference of
- * the tails on its side of 0, as logNormalIntervalProbability does, so that nothing cancels more
- * than the interval's own narrowness requires.
+ * gives (Phi((u - y)/s) - Phi((l - y)/s))/(u - l). Each distinct bound's tails are taken once a
+ * row (normalTails) and an interval's mass is their difference on its side of 0 (normalIntervalMass).
  */
 function fillPointsAndUniforms(
   y: ArrayLike<number>,
@@ -106,17 +99,7 @@ function fillPointsAndUniforms(
   logRowMax: Float64Array,
 ): void {
   const columns = components.length;
-  const bounds: number[] = [];
-  const boundIndex = new Map<number, number>();
-  const indexOfBound = (value: number): number => {
-    let index = boundIndex.get(value);
-    if (index === undefined) {
-      index = bounds.length;
-      boundIndex.set(value, index);
-      bounds.push(value);
-    }
-    return index;
-  };
+  const bounds = new DistinctValues();
   const isPoint = new Uint8Array(columns);
   const at = new Float64Array(columns);
   const lowerBound = new Int32Array(columns);
@@ -127,25 +110,25 @@ function fillPointsAndUniforms(
       isPoint[k] = 1;
       at[k] = component.at;
     } else if (component.kind === "uniform") {
-      lowerBound[k] = indexOfBound(component.lower);
-      upperBound[k] = indexOfBound(component.upper);
+      lowerBound[k] = bounds.indexOf(component.lower);
+      upperBound[k] = bounds.indexOf(component.upper);
       inverseWidth[k] = 1 / (component.upper - component.lower);
     }
   });
-  const boundValues = Float64Array.from(bounds);
-  const below = new Float64Array(bounds.length);
-  const above = new Float64Array(bounds.length);
-  const standardized = new Float64Array(bounds.length);
+  const boundValues = bounds.values();
+  const below = new Float64Array(bounds.count);
+  const above = new Float64Array(bounds.count);
+  const standardized = new Float64Array(bounds.count);
+  const tails = new Float64Array(3);
   for (let i = 0; i < y.length; i++) {
     const yi = y[i] as number;
     const si = s[i] as number;
     for (let b = 0; b < boundValues.length; b++) {
       const z = ((boundValues[b] as number) - yi) / si;
       standardized[b] = z;
-      // One cdf call: the smaller tail directly, the other as its complement.
-      const smaller = normalCdf(-Math.abs(z));
-      below[b] = z < 0 ? smaller : 1 - smaller;
-      above[b] = z < 0 ? 1 - smaller : smaller;
+      normalTails(z, tails);
+      below[b] = tails[0] as number;
+      above[b] = tails[1] as number;
     }
     const offset = i * columns;
     let maximum = 0;
@@ -153,29 +136,37 @@ function fillPointsAndUniforms(
       let value: number;
       if (isPoint[k] === 1) {
         const z = (yi - (at[k] as number)) / si;
-        value = (inverseSqrtTwoPi * Math.exp(-0.5 * z * z)) / si;
+        value = normalPdf(z) / si;
       } else {
         const from = lowerBound[k] as number;
         const to = upperBound[k] as number;
-        const mass =
-          (standardized[from] as number) >= 0
-            ? (above[from] as number) - (above[to] as number)
-            : (standardized[to] as number) <= 0
-              ? (below[to] as number) - (below[from] as number)
-              : 1 - (below[from] as number) - (above[to] as number);
+        const mass = normalIntervalMass(
+          standardized[from] as number,
+          below[from] as number,
+          above[from] as number,
+          standardized[to] as number,
+          below[to] as number,
+          above[to] as number,
+        );
         value = Math.max(0, mass) * (inverseWidth[k] as number);
       }
       values[offset + k] = value;
       if (value > maximum) maximum = value;
     }
-    if (maximum > smallestSafeMaximum && maximum < Number.POSITIVE_INFINITY) {
-      const inverse = 1 / maximum;
-      for (let k = 0; k < columns; k++) values[offset + k] = (values[offset + k] as number) * inverse;
-      logRowMax[i] = Math.log(maximum);
-    } else {
-      fillRowInLogSpace(yi, si, components, values, logRowMax, i);
-    }
+    if (scaleRow(values, offset, columns, maximum)) logRowMax[i] = Math.log(maximum);
+    else fillRowInLogSpace(yi, si, components, values, logRowMax, i);
   }
+}
+
+/**
+ * Divides a row filled in linear space by its maximum; false (row untouched) when the maximum has
+ * lost precision to underflow or overflowed, and the row must be redone in log space.
+ */
+function scaleRow(values: Float64Array, offset: number, columns: number, maximum: number): boolean {
+  if (!(maximum > smallestSafeMaximum && maximum < Number.POSITIVE_INFINITY)) return false;
+  const inverse = 1 / maximum;
+  for (let k = 0; k < columns; k++) values[offset + k] = (values[offset + k] as number) * inverse;
+  return true;
 }
 
 function fillRowInLogSpace(

@@ -14,11 +14,12 @@
  * Uniform components (the skewed family) are summarized in linear space from the normal cdf and
  * density at each distinct bound and threshold, taken once a result: the posterior of a uniform on
  * [l, u] is N(y, s^2) truncated there, whose mass, mean and tails are differences of those values
- * (the tails on the interval's side of 0, as logNormalIntervalProbability takes them). A mass too
+ * (normalTails and normalIntervalMass, which keep them from cancelling). A mass too
  * small for linear space sends that component to the log-space kernel.
  */
 import { componentLogLikelihood } from "./component-likelihood.ts";
-import { normalCdf } from "./distributions.ts";
+import { DistinctValues } from "./distinct-values.ts";
+import { normalIntervalMass, normalTails } from "./distributions.ts";
 import type { EffectPrior, PriorComponent } from "./effect-prior.ts";
 import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
 import {
@@ -190,7 +191,6 @@ export function posteriorSumsUnderPriors(
   }));
 }
 
-const inverseSqrtTwoPi = 0.3989422804014327;
 // Below this an interval's mass computed in linear space has lost precision to underflow.
 const smallestLinearMass = 1e-280;
 
@@ -199,17 +199,7 @@ const smallestLinearMass = 1e-280;
  * the standardized point, both tails and the density at each; then each uniform's figures.
  */
 function uniformBounds(components: readonly PriorComponent[], thresholds: readonly number[]) {
-  const points: number[] = [];
-  const indexOf = new Map<number, number>();
-  const pointIndex = (value: number): number => {
-    let index = indexOf.get(value);
-    if (index === undefined) {
-      index = points.length;
-      indexOf.set(value, index);
-      points.push(value);
-    }
-    return index;
-  };
+  const points = new DistinctValues();
   const k = components.length;
   const isUniform = new Uint8Array(k);
   const from = new Int32Array(k);
@@ -220,20 +210,21 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
   components.forEach((component, c) => {
     if (component.kind === "uniform" && component.upper > component.lower) {
       isUniform[c] = 1;
-      from[c] = pointIndex(component.lower);
-      to[c] = pointIndex(component.upper);
+      from[c] = points.indexOf(component.lower);
+      to[c] = points.indexOf(component.upper);
       lower[c] = component.lower;
       upper[c] = component.upper;
       count++;
     }
   });
-  const zero = pointIndex(0);
-  const thresholdPoint = Int32Array.from(thresholds, (threshold) => pointIndex(threshold));
-  const values = Float64Array.from(points);
-  const z = new Float64Array(points.length);
-  const below = new Float64Array(points.length);
-  const above = new Float64Array(points.length);
-  const density = new Float64Array(points.length);
+  const zero = points.indexOf(0);
+  const thresholdPoint = Int32Array.from(thresholds, (threshold) => points.indexOf(threshold));
+  const values = points.values();
+  const z = new Float64Array(points.count);
+  const below = new Float64Array(points.count);
+  const above = new Float64Array(points.count);
+  const density = new Float64Array(points.count);
+  const tails = new Float64Array(3);
 
   const state = {
     count,
@@ -244,10 +235,10 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
       for (let p = 0; p < values.length; p++) {
         const standardized = ((values[p] as number) - y) / s;
         z[p] = standardized;
-        const smaller = normalCdf(-Math.abs(standardized));
-        below[p] = standardized < 0 ? smaller : 1 - smaller;
-        above[p] = standardized < 0 ? 1 - smaller : smaller;
-        density[p] = inverseSqrtTwoPi * Math.exp(-0.5 * standardized * standardized);
+        normalTails(standardized, tails);
+        below[p] = tails[0] as number;
+        above[p] = tails[1] as number;
+        density[p] = tails[2] as number;
       }
     },
     /** Fills `out` for uniform component c; false when its mass is too small for linear space. */
@@ -283,7 +274,7 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
   return state;
 }
 
-/** Mass of N(0, 1) between points a and b (z[a] <= z[b]), without cancellation across 0. */
+/** normalIntervalMass between points a and b (z[a] <= z[b]) of the per-result arrays. */
 function intervalMass(
   z: Float64Array,
   below: Float64Array,
@@ -291,9 +282,12 @@ function intervalMass(
   a: number,
   b: number,
 ): number {
-  return (z[a] as number) >= 0
-    ? (above[a] as number) - (above[b] as number)
-    : (z[b] as number) <= 0
-      ? (below[b] as number) - (below[a] as number)
-      : 1 - (below[a] as number) - (above[b] as number);
+  return normalIntervalMass(
+    z[a] as number,
+    below[a] as number,
+    above[a] as number,
+    z[b] as number,
+    below[b] as number,
+    above[b] as number,
+  );
 }

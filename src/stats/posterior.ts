@@ -19,9 +19,12 @@ import { componentLogLikelihood, logNormalIntervalProbability } from "./componen
 import {
   normalCdf,
   normalCdfAndDensity,
+  normalIntervalMass,
   normalLogPdf,
+  normalPdf,
   normalQuantile,
   normalSurvival,
+  normalTails,
 } from "./distributions.ts";
 import type { EffectPrior, PriorComponent, WeightedComponent } from "./effect-prior.ts";
 import { requireFinite, requireOpenUnit, requirePositive, StatsInputError } from "./errors.ts";
@@ -59,7 +62,6 @@ const kindTruncated = 2;
 
 // Posterior components below this share are dropped: they cannot move any reported figure.
 const negligibleShare = 1e-15;
-const inverseSqrtTwoPi = 0.3989422804014327;
 
 /** A prior prepared for many evaluations: component parameters in typed arrays. */
 interface PreparedPrior {
@@ -106,7 +108,7 @@ interface Workspace {
   readonly upperBelow: Float64Array;
   readonly upperAbove: Float64Array;
   readonly upperDensity: Float64Array;
-  /** Scratch of gaussianTails: [below, above, density]. */
+  /** Scratch of normalTails: [below, above, density]. */
   readonly tails: Float64Array;
 }
 
@@ -459,23 +461,22 @@ const linearTailLimit = 8;
 /**
  * For prior component c, a uniform with standardized bounds a = (l - y)/s and b = (u - y)/s: stores
  * both tails and the density at each bound in slot c and returns the posterior mass
- * Phi(b) - Phi(a), taken as the difference of the tails on the interval's side of 0 (as
- * logNormalIntervalProbability does), or 0 when it must stay in log space.
+ * Phi(b) - Phi(a) (normalIntervalMass), or 0 when it must stay in log space.
  */
 function linearUniformMass(workspace: Workspace, c: number, a: number, b: number): number {
   workspace.linearMass[c] = 0;
   if (a >= linearTailLimit || b <= -linearTailLimit) return 0;
-  gaussianTails(a, workspace.tails);
+  normalTails(a, workspace.tails);
   workspace.lowerZ[c] = a;
   workspace.lowerBelow[c] = workspace.tails[0] as number;
   workspace.lowerAbove[c] = workspace.tails[1] as number;
   workspace.lowerDensity[c] = workspace.tails[2] as number;
-  gaussianTails(b, workspace.tails);
+  normalTails(b, workspace.tails);
   workspace.upperZ[c] = b;
   workspace.upperBelow[c] = workspace.tails[0] as number;
   workspace.upperAbove[c] = workspace.tails[1] as number;
   workspace.upperDensity[c] = workspace.tails[2] as number;
-  const mass = gaussianMass(
+  const mass = normalIntervalMass(
     a,
     workspace.lowerBelow[c] as number,
     workspace.lowerAbove[c] as number,
@@ -488,39 +489,10 @@ function linearUniformMass(workspace: Workspace, c: number, a: number, b: number
   return mass;
 }
 
-/** [Phi(z), 1 - Phi(z), phi(z)] into out, the smaller tail to full relative accuracy. */
-function gaussianTails(z: number, out: Float64Array): void {
-  if (z === Number.NEGATIVE_INFINITY || z === Number.POSITIVE_INFINITY) {
-    out[0] = z > 0 ? 1 : 0;
-    out[1] = z > 0 ? 0 : 1;
-    out[2] = 0;
-    return;
-  }
-  normalCdfAndDensity(-Math.abs(z), out);
-  const smaller = out[0] as number;
-  out[2] = out[1] as number;
-  out[0] = z < 0 ? smaller : 1 - smaller;
-  out[1] = z < 0 ? 1 - smaller : smaller;
-}
-
-/** Phi(b) - Phi(a) for a <= b from both tails at each, without cancellation across 0. */
-function gaussianMass(
-  a: number,
-  belowA: number,
-  aboveA: number,
-  b: number,
-  belowB: number,
-  aboveB: number,
-): number {
-  if (a >= 0) return aboveA - aboveB;
-  if (b <= 0) return belowB - belowA;
-  return 1 - belowA - aboveB;
-}
-
 /** P(component c < t) for a linear-space uniform, with the tails at z_t in workspace.tails. */
 function linearUniformLowerTail(workspace: Workspace, c: number, zt: number): number {
   const tails = workspace.tails;
-  const mass = gaussianMass(
+  const mass = normalIntervalMass(
     workspace.lowerZ[c] as number,
     workspace.lowerBelow[c] as number,
     workspace.lowerAbove[c] as number,
@@ -592,9 +564,9 @@ function componentUpperTail(workspace: Workspace, c: number, t: number): number 
   if (t >= u) return 0;
   if ((workspace.linearMass[c] as number) > 0) {
     const zt = (t - m) / sc;
-    gaussianTails(zt, workspace.tails);
+    normalTails(zt, workspace.tails);
     const tails = workspace.tails;
-    const mass = gaussianMass(
+    const mass = normalIntervalMass(
       zt,
       tails[0] as number,
       tails[1] as number,
@@ -622,7 +594,7 @@ function componentLowerTail(workspace: Workspace, c: number, t: number): number 
   if (t >= u) return 1;
   if ((workspace.linearMass[c] as number) > 0) {
     const zt = (t - m) / sc;
-    gaussianTails(zt, workspace.tails);
+    normalTails(zt, workspace.tails);
     return linearUniformLowerTail(workspace, c, zt);
   }
   return Math.exp(
@@ -639,7 +611,7 @@ function componentDensity(workspace: Workspace, c: number, t: number): number {
   if (kind === kindNormal) return Math.exp(normalLogPdf(z)) / sc;
   if (t < (workspace.lower[c] as number) || t > (workspace.upper[c] as number)) return 0;
   if ((workspace.linearMass[c] as number) > 0)
-    return (inverseSqrtTwoPi * Math.exp(-0.5 * z * z)) / (sc * (workspace.linearMass[c] as number));
+    return normalPdf(z) / (sc * (workspace.linearMass[c] as number));
   return Math.exp(normalLogPdf(z) - (workspace.logMass[c] as number)) / sc;
 }
 
@@ -691,7 +663,7 @@ function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
       }
       const z = (t - m) / sc;
       if (z !== sharedZ) {
-        gaussianTails(z, workspace.tails);
+        normalTails(z, workspace.tails);
         sharedZ = z;
       }
       total += weight * linearUniformLowerTail(workspace, c, z);

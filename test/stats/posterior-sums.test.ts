@@ -8,7 +8,7 @@
 import { describe, expect, it } from "vitest";
 import type { EffectPrior, PriorComponent } from "../../src/stats/effect-prior.ts";
 import { posteriorProbabilityColumns } from "../../src/stats/posterior-probabilities.ts";
-import { posteriorSumsUnderPriors } from "../../src/stats/posterior-sums.ts";
+import { type PosteriorSums, posteriorSumsUnderPriors } from "../../src/stats/posterior-sums.ts";
 import { skewedComponents } from "../../src/stats/prior-grid.ts";
 import { createRandom } from "../../src/stats/random.ts";
 
@@ -40,6 +40,31 @@ function expectRelativelyClose(name: string, actual: number, expected: number): 
     throw new Error(`${name}: actual ${actual}, expected ${expected}`);
 }
 
+type SummedFigure = "mean" | "probNull" | "probNegative" | "probPositive";
+
+/** Each prior's sums against the summed columns of posteriorProbabilityColumns: the figures named, and every threshold. */
+function expectSummedColumns(
+  sums: readonly PosteriorSums[],
+  priors: readonly EffectPrior[],
+  y: Float64Array,
+  s: Float64Array,
+  thresholds: readonly number[],
+  figures: readonly SummedFigure[],
+): void {
+  for (const [b, prior] of priors.entries()) {
+    const columns = posteriorProbabilityColumns(prior, y, s, thresholds);
+    const sum = sums[b] as PosteriorSums;
+    for (const figure of figures)
+      expectRelativelyClose(`prior ${b} ${figure}`, sum[figure], sumOf(columns[figure]));
+    for (const [j, threshold] of thresholds.entries())
+      expectRelativelyClose(
+        `prior ${b} probAbove(${threshold})`,
+        sum.probAbove[j] as number,
+        sumOf(columns.probAbove[j] as Float64Array),
+      );
+  }
+}
+
 describe("posteriorSumsUnderPriors", () => {
   it("equals the summed columns of posteriorProbabilityColumns for each of 12 priors", () => {
     const random = createRandom(20261203);
@@ -65,20 +90,7 @@ describe("posteriorSumsUnderPriors", () => {
     const thresholds = [0, 0.01];
     const sums = posteriorSumsUnderPriors(priors, y, s, thresholds);
     expect(sums).toHaveLength(priors.length);
-    for (const [b, prior] of priors.entries()) {
-      const columns = posteriorProbabilityColumns(prior, y, s, thresholds);
-      const sum = sums[b] as (typeof sums)[number];
-      expectRelativelyClose(`prior ${b} mean`, sum.mean, sumOf(columns.mean));
-      expectRelativelyClose(`prior ${b} probNull`, sum.probNull, sumOf(columns.probNull));
-      expectRelativelyClose(`prior ${b} probNegative`, sum.probNegative, sumOf(columns.probNegative));
-      expectRelativelyClose(`prior ${b} probPositive`, sum.probPositive, sumOf(columns.probPositive));
-      for (const [j, threshold] of thresholds.entries())
-        expectRelativelyClose(
-          `prior ${b} probAbove(${threshold})`,
-          sum.probAbove[j] as number,
-          sumOf(columns.probAbove[j] as Float64Array),
-        );
-    }
+    expectSummedColumns(sums, priors, y, s, thresholds, ["mean", "probNull", "probNegative", "probPositive"]);
   });
 
   it("on the skewed family's uniforms (linear-space path), equals the summed columns too", () => {
@@ -99,19 +111,7 @@ describe("posteriorSumsUnderPriors", () => {
     });
     const thresholds = [0, 0.004];
     const sums = posteriorSumsUnderPriors(priors, y, s, thresholds);
-    for (const [b, prior] of priors.entries()) {
-      const columns = posteriorProbabilityColumns(prior, y, s, thresholds);
-      const sum = sums[b] as (typeof sums)[number];
-      expectRelativelyClose(`prior ${b} mean`, sum.mean, sumOf(columns.mean));
-      expectRelativelyClose(`prior ${b} probNegative`, sum.probNegative, sumOf(columns.probNegative));
-      expectRelativelyClose(`prior ${b} probPositive`, sum.probPositive, sumOf(columns.probPositive));
-      for (const [j, threshold] of thresholds.entries())
-        expectRelativelyClose(
-          `prior ${b} probAbove(${threshold})`,
-          sum.probAbove[j] as number,
-          sumOf(columns.probAbove[j] as Float64Array),
-        );
-    }
+    expectSummedColumns(sums, priors, y, s, thresholds, ["mean", "probNegative", "probPositive"]);
   });
 
   it("refuses a result without a positive standard error, naming its index", () => {
