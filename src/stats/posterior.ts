@@ -521,6 +521,24 @@ function truncatedMoments(m: number, sc: number, l: number, u: number, logMass: 
     const [delta, spread] = oneSidedTail(-beta);
     return [Math.max(l, u - sc * delta), sc * sc * spread];
   }
+  return momentsFromBoundRatios(m, sc, l, u, ratioLower, ratioUpper);
+}
+
+/**
+ * Mean and variance of N(m, sc^2) truncated to [l, u] from the ratios phi(alpha)/Z and phi(beta)/Z
+ * at the standardized bounds (Z the mass): mean m + sc (r_l - r_u), variance
+ * sc^2 (1 + alpha r_l - beta r_u - (r_l - r_u)^2), width^2/12 when rounding leaves it non-positive.
+ */
+function momentsFromBoundRatios(
+  m: number,
+  sc: number,
+  l: number,
+  u: number,
+  ratioLower: number,
+  ratioUpper: number,
+): [number, number] {
+  const alpha = (l - m) / sc;
+  const beta = (u - m) / sc;
   const shift = ratioLower - ratioUpper;
   const mean = Math.min(u, Math.max(l, m + sc * shift));
   const spread =
@@ -736,19 +754,16 @@ function summarizeInto(
       componentVariance = (workspace.scale[c] as number) ** 2;
       pointMassOnly = false;
     } else if (kind === kindTruncated && (workspace.linearMass[c] as number) > 0) {
-      // Truncated-normal moments from the bound densities over the mass (no far tail here).
-      const sc = workspace.scale[c] as number;
+      // The bound densities over the mass, in linear space (no far tail here).
       const mass = workspace.linearMass[c] as number;
-      const alpha = workspace.lowerZ[c] as number;
-      const beta = workspace.upperZ[c] as number;
-      const ratioLower = (workspace.lowerDensity[c] as number) / mass;
-      const ratioUpper = (workspace.upperDensity[c] as number) / mass;
-      const shift = ratioLower - ratioUpper;
-      const l = workspace.lower[c] as number;
-      const u = workspace.upper[c] as number;
-      componentMean = Math.min(u, Math.max(l, componentMean + sc * shift));
-      const spread = 1 + alpha * ratioLower - beta * ratioUpper - shift * shift;
-      componentVariance = spread > 0 ? sc * sc * spread : ((u - l) * (u - l)) / 12;
+      [componentMean, componentVariance] = momentsFromBoundRatios(
+        componentMean,
+        workspace.scale[c] as number,
+        workspace.lower[c] as number,
+        workspace.upper[c] as number,
+        (workspace.lowerDensity[c] as number) / mass,
+        (workspace.upperDensity[c] as number) / mass,
+      );
       pointMassOnly = false;
     } else if (kind === kindTruncated) {
       [componentMean, componentVariance] = truncatedMoments(
