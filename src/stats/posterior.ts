@@ -176,11 +176,21 @@ export function posteriorColumns(
   s: ArrayLike<number>,
   level: number = defaultCredibleLevel,
 ): PosteriorColumns {
+  validatePosteriorInputs(y, s, level);
+  const columns = emptyPosteriorColumns(y.length, level);
+  writePosteriorRows(prior, y, s, columns, 0, y.length);
+  return columns;
+}
+
+/**
+ * Checks what posteriorColumns checks (level in (0, 1), equal lengths, finite y, positive finite s),
+ * throwing StatsInputError naming the first offending entry.
+ */
+export function validatePosteriorInputs(y: ArrayLike<number>, s: ArrayLike<number>, level: number): void {
   requireOpenUnit("level", level);
   if (y.length !== s.length)
     throw new StatsInputError("s", `of the same length as y (${y.length})`, s.length);
-  const count = y.length;
-  for (let i = 0; i < count; i++) {
+  for (let i = 0; i < y.length; i++) {
     const yi = y[i] as number;
     const si = s[i] as number;
     // The parameter name is only built for the offending entry (a million template strings cost more
@@ -188,25 +198,53 @@ export function posteriorColumns(
     if (!Number.isFinite(yi)) requireFinite(`y[${i}]`, yi);
     if (!(si > 0 && si < Number.POSITIVE_INFINITY)) requirePositive(`s[${i}]`, si);
   }
+}
+
+/** Columns for `count` posteriors, over the given buffers (shared between threads) or new ones. */
+export function emptyPosteriorColumns(
+  count: number,
+  level: number,
+  buffers?: readonly ArrayBufferLike[],
+): PosteriorColumns {
+  const column = (index: number): Float64Array =>
+    buffers ? new Float64Array(buffers[index] as ArrayBufferLike, 0, count) : new Float64Array(count);
+  return {
+    level,
+    mean: column(0),
+    sd: column(1),
+    lower: column(2),
+    upper: column(3),
+    probPositive: column(4),
+    probNull: column(5),
+    probNegative: column(6),
+    lfsr: column(7),
+  };
+}
+
+/** The number of columns of PosteriorColumns (for buffers given to emptyPosteriorColumns). */
+export const posteriorColumnCount = 8;
+
+/**
+ * Writes the posteriors of rows [from, to) into `columns` at the same rows, at `columns.level`.
+ * The inputs must have passed validatePosteriorInputs; each row depends on its own (y, s) only, so
+ * ranges can be written in any order or on any thread with the same result.
+ */
+export function writePosteriorRows(
+  prior: EffectPrior,
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  columns: PosteriorColumns,
+  from: number,
+  to: number,
+): void {
   const prepared = preparePrior(prior);
   const workspace = createWorkspace(prepared.count);
+  const level = columns.level;
   const upperZ = normalQuantile((1 + level) / 2);
-  const columns: PosteriorColumns = {
-    level,
-    mean: new Float64Array(count),
-    sd: new Float64Array(count),
-    lower: new Float64Array(count),
-    upper: new Float64Array(count),
-    probPositive: new Float64Array(count),
-    probNull: new Float64Array(count),
-    probNegative: new Float64Array(count),
-    lfsr: new Float64Array(count),
-  };
-  for (let i = 0; i < count; i++) {
+  for (let i = from; i < to; i++) {
     fillPosterior(prepared, y[i] as number, s[i] as number, workspace);
     summarizeInto(workspace, level, upperZ, columns, i);
   }
-  return columns;
 }
 
 function validateResult(y: number, s: number): void {
@@ -659,7 +697,11 @@ function mixtureLowerTailAndDensity(workspace: Workspace, t: number): number {
   let sharedZ = Number.NaN;
   for (let c = 0; c < workspace.count; c++) {
     const weight = workspace.weight[c] as number;
-    if (workspace.kind[c] === kindNormal) {
+    const kind = workspace.kind[c] as number;
+    if (kind === kindPoint) {
+      // An atom adds its weight once t is past it, and nothing to the density.
+      if ((workspace.location[c] as number) < t) total += weight;
+    } else if (kind === kindNormal) {
       const m = workspace.location[c] as number;
       const sc = workspace.scale[c] as number;
       const z = (t - m) / sc;

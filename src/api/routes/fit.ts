@@ -12,8 +12,9 @@ import { bootstrapPrior, summaryFigures } from "../../stats/bootstrap-prior.ts";
 import type { PriorComponent } from "../../stats/effect-prior.ts";
 import { StatsInputError } from "../../stats/errors.ts";
 import { defaultNullWeight, type FamilyFit, fitEffectPrior } from "../../stats/fit-effect-prior.ts";
-import { defaultCredibleLevel, posteriorColumns } from "../../stats/posterior.ts";
+import { defaultCredibleLevel } from "../../stats/posterior.ts";
 import { summarizePrior } from "../../stats/prior-summary.ts";
+import { posteriorColumnsOnThreads } from "../../threads/posterior-threads.ts";
 import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
@@ -245,7 +246,7 @@ export function fitRoutes({ db }: AppDeps): ApiRouter {
               })
             : undefined;
         const columns = body.posteriors
-          ? posteriorColumns(
+          ? await posteriorColumnsOnThreads(
               fit.prior,
               observations.map((observation) => observation.y),
               observations.map((observation) => observation.s),

@@ -15,8 +15,10 @@ import {
   fitEffectPrior,
   type Observation,
 } from "../../stats/fit-effect-prior.ts";
-import { defaultCredibleLevel, posteriorColumns } from "../../stats/posterior.ts";
+import { defaultCredibleLevel } from "../../stats/posterior.ts";
 import { summarizePrior } from "../../stats/prior-summary.ts";
+import { helperThread } from "../../threads/helper-thread.ts";
+import { posteriorColumnsOnThreads, threadedPosteriorRows } from "../../threads/posterior-threads.ts";
 import type { CommandIo } from "../io.ts";
 
 export const summary = "fit the distribution of true effects to a CSV of results and shrink every result";
@@ -137,6 +139,8 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
   const read = readObservations(content);
   if ("issues" in read) return fail(1, `${file}: ${read.message}`, read.issues);
   const observations = read.observations;
+  // A large file's posteriors are shared with a helper thread, started now so that it is up by then.
+  if (values.posteriors !== undefined && observations.length >= threadedPosteriorRows) void helperThread();
 
   let fit: ReturnType<typeof fitEffectPrior>;
   let bootstrap: PriorBootstrap | undefined;
@@ -163,7 +167,7 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
   }
   const priorSummary = summarizePrior(fit.prior, { threshold: threshold as number });
   if (values.posteriors !== undefined) {
-    const columns = posteriorColumns(
+    const columns = await posteriorColumnsOnThreads(
       fit.prior,
       observations.map((observation) => observation.y),
       observations.map((observation) => observation.s),
