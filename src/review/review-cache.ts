@@ -12,6 +12,7 @@ import { computationCache, dataVersions } from "../db/schema.ts";
 
 export const reviewCacheKind = "review";
 export const reviewTestsCacheKind = "review-tests";
+export const reviewFitsCacheKind = "review-fits";
 
 /**
  * The workspace's data version: a counter that database triggers bump on every write to its
@@ -30,6 +31,32 @@ export function reviewCacheKey(workspaceId: number, settings: unknown, dataVersi
   return createHash("sha256")
     .update(`review:v2\nworkspace ${workspaceId}\ndata version ${dataVersion}\n${JSON.stringify(settings)}`)
     .digest("hex");
+}
+
+/**
+ * The key of a review's prior fits (review-fits.ts): the workspace, the SHA-256 fingerprint of the
+ * family's rows (every field the fits read is in it) and the fit settings; not the data version,
+ * so that writes to other families leave the fits valid.
+ */
+export function reviewFitsCacheKey(
+  workspaceId: number,
+  dataFingerprint: string,
+  fitSettings: unknown,
+): string {
+  return createHash("sha256")
+    .update(
+      `review-fits:v1\nworkspace ${workspaceId}\ndata ${dataFingerprint}\n${JSON.stringify(fitSettings)}`,
+    )
+    .digest("hex");
+}
+
+/** An entry's stored JSON text as it is (for values with their own decoding), or null. */
+export async function readCacheText(db: Database, cacheKey: string, kind: string): Promise<string | null> {
+  const [row] = await db
+    .select({ value: sql<string>`${computationCache.value}` })
+    .from(computationCache)
+    .where(and(eq(computationCache.cacheKey, cacheKey), eq(computationCache.kind, kind)));
+  return row ? row.value : null;
 }
 
 export async function readCache<T>(db: Database, cacheKey: string, kind: string): Promise<T | null> {

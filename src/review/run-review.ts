@@ -5,34 +5,35 @@
  * A second identical request on unchanged data is served from the cache (`cached: true`).
  */
 import type { Database } from "../db/client.ts";
-import { bootstrapPrior } from "../stats/bootstrap-prior.ts";
-import type { EffectPrior } from "../stats/effect-prior.ts";
 import { StatsInputError } from "../stats/errors.ts";
-import {
-  defaultNullWeight,
-  type FamilyFit,
-  type FitFamily,
-  fitEffectPrior,
-  fitOnMatrix,
-  type Observation,
-  observationColumns,
-  type PriorFit,
-} from "../stats/fit-effect-prior.ts";
-import { likelihoodMatrix } from "../stats/likelihood-matrix.ts";
-import { defaultThetaGridPointCount, thetaGridComponents } from "../stats/prior-grid.ts";
+import type { FitFamily } from "../stats/fit-effect-prior.ts";
+import { defaultThetaGridPointCount } from "../stats/prior-grid.ts";
 import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
 import { createRandom } from "../stats/random.ts";
-import { PriorWorker, refitsSharedWithWorker } from "./prior-worker-pool.ts";
 import { readReviewData } from "./read-review-data.ts";
 import {
   readCache,
+  readCacheText,
   reviewCacheKey,
   reviewCacheKind,
+  reviewFitsCacheKey,
+  reviewFitsCacheKind,
   reviewTestsCacheKind,
   storedDataVersion,
   writeCache,
 } from "./review-cache.ts";
 import { type ReviewFilters, resolveFilters } from "./review-filters.ts";
+import {
+  defaultBootstrapRefits,
+  type FitSettings,
+  fitReviewPriors,
+  fitsFromJson,
+  fitsToJson,
+  largeHistoryBootstrapRefits,
+  largeHistoryGridPoints,
+  largeHistoryTests,
+  type ReviewFits,
+} from "./review-fits.ts";
 
 export interface ReviewRequest {
   readonly filters?: ReviewFilters;
@@ -52,27 +53,6 @@ export interface ReviewRequest {
   readonly bootstrap?: number;
   /** Seed of every random draw of the review (default 1). */
   readonly seed?: number;
-}
-
-export const defaultBootstrapRefits = 100;
-
-/**
- * Above this many included tests, a review that did not ask for a number of refits gets
- * largeHistoryBootstrapRefits instead of defaultBootstrapRefits (stated in its assumptions): each
- * refit costs a fit of the whole history, and with so many tests the refitted priors vary little,
- * so 20 refits already place the 2.5 % / 97.5 % percentiles of the program sums to within a small
- * share of the interval's width (common practice: fewer bootstrap draws when the interval is narrow).
- */
-export const largeHistoryTests = 20_000;
-export const largeHistoryBootstrapRefits = 20;
-/** Grid points of the grid family's sensitivity row above largeHistoryTests tests. */
-export const largeHistoryGridPoints = 100;
-
-/** The grid family on a coarser grid of equally spaced points (the nonparametric MLE's support). */
-function coarseGridFit(observations: readonly Observation[], nullWeight: number): FamilyFit {
-  const data = observationColumns(observations);
-  const grid = thetaGridComponents(data, largeHistoryGridPoints);
-  return fitOnMatrix(likelihoodMatrix(data.y, data.s, grid), grid, "grid", nullWeight);
 }
 
 /** The settings a review ran with, resolved (stored with every saved review). */
@@ -133,7 +113,12 @@ export async function runReview(
   const settings = resolveReviewSettings(request);
   const progress = options.onProgress ?? (() => undefined);
   const dataVersion = await storedDataVersion(db, workspaceId);
-  const cacheKey = reviewCacheKey(workspaceId, settings, dataVersion);
+  // Whether the refits were asked for is part of the key: a default is lowered for a large history.
+  const cacheKey = reviewCacheKey(
+    workspaceId,
+    { settings, bootstrapAsked: request.bootstrap !== undefined },
+    dataVersion,
+  );
   // cache_key is the table's primary key: the table gets its own key.
   const testsCacheKey = `${cacheKey}:tests`;
   const cachedSummary = await readCache<ReviewSummary>(db, cacheKey, reviewCacheKind);
@@ -154,73 +139,28 @@ export async function runReview(
       `metric family "${data.family}" has no tests left to fit after leaving out A/A, mismatched and unmeasured ones`,
     );
   }
-  progress(`fitting the prior to ${included.length} tests of "${data.family}"`);
   const observations = included.map((test) => ({ y: test.y, s: test.s }));
-  const fitOptions = settings.nullWeight !== null ? { nullWeight: settings.nullWeight } : {};
-  // A large history fits the grid sensitivity row on a coarser grid (its cost grows with
-  // tests x points); the grid is never the chosen family under "auto", so only that row moves.
-  const coarseGrid = included.length > largeHistoryTests;
-  const nullWeight = settings.nullWeight ?? defaultNullWeight;
-  const columns = observationColumns(observations);
-  // A large history also gets a second thread: the coarse grid fit, then a share of the refits.
-  const worker =
-    coarseGrid && (settings.priorFamily !== "grid" || settings.bootstrap > 0)
-      ? PriorWorker.start(columns.y, columns.s)
-      : null;
-  let fit: PriorFit;
-  let alternatives: FamilyFit[];
-  let bootstrapPriors: readonly EffectPrior[] = [];
-  let gridRowCoarse: boolean;
-  let lowered: boolean;
-  try {
-    const gridFromWorker =
-      worker && settings.priorFamily !== "grid"
-        ? worker.fitCoarseGrid(largeHistoryGridPoints, nullWeight).catch(() => null)
-        : null;
-    const coarseGridAlternative = async (): Promise<FamilyFit> =>
-      (await gridFromWorker) ?? coarseGridFit(observations, nullWeight);
-    if (settings.priorFamily === "auto" && coarseGrid) {
-      // The rule of fitEffectPrior's "auto": the better of symmetric and skewed by log-likelihood.
-      const symmetric = fitEffectPrior(observations, { ...fitOptions, family: "symmetric" });
-      const skewed = fitEffectPrior(observations, { ...fitOptions, family: "skewed" });
-      const chosen = skewed.logLik > symmetric.logLik ? skewed : symmetric;
-      fit = chosen;
-      alternatives = [symmetric, skewed];
-    } else {
-      fit = fitEffectPrior(observations, { ...fitOptions, family: settings.priorFamily });
-      // Sensitivity: the other families, as fitted alongside ("auto") or fitted here.
-      alternatives = fit.alternatives
-        ? [...fit.alternatives]
-        : (["symmetric", "skewed", "grid"] as const)
-            .filter((family) => family !== fit.family && !(family === "grid" && coarseGrid))
-            .map((family) => fitEffectPrior(observations, { ...fitOptions, family }));
-    }
-    gridRowCoarse = coarseGrid && fit.family !== "grid";
-    lowered =
-      request.bootstrap === undefined &&
-      included.length > largeHistoryTests &&
-      settings.bootstrap > largeHistoryBootstrapRefits;
-    const refitCount = lowered ? largeHistoryBootstrapRefits : settings.bootstrap;
-    // Its own stream, so that the bootstrap and Lee & Shen's draws do not depend on each other.
-    const bootstrapSeed = settings.seed + 7919;
-    const onRefit = (done: number, total: number) => {
-      if (done % 10 === 0 || done === total) progress(`bootstrap refit ${done} of ${total}`);
-    };
-    if (refitCount > 0) {
-      progress(`refitting the prior to ${refitCount} bootstrap resamples`);
-      bootstrapPriors = worker
-        ? await refitsSharedWithWorker(worker, columns.y, columns.s, fit, refitCount, bootstrapSeed, onRefit)
-        : bootstrapPrior(observations, fit, {
-            replicates: refitCount,
-            seed: bootstrapSeed,
-            onProgress: onRefit,
-          }).priors;
-    }
-    if (gridRowCoarse) alternatives.push(await coarseGridAlternative());
-    if (settings.priorFamily === "auto" && coarseGrid) fit = { ...fit, alternatives };
-  } finally {
-    worker?.close();
+  const fitSettings: FitSettings = {
+    nullWeight: settings.nullWeight,
+    priorFamily: settings.priorFamily,
+    bootstrap: settings.bootstrap,
+    bootstrapAsked: request.bootstrap !== undefined,
+    seed: settings.seed,
+  };
+  const fitsKey = reviewFitsCacheKey(workspaceId, data.fingerprint, fitSettings);
+  const cachedFits = await readCacheText(db, fitsKey, reviewFitsCacheKind);
+  let fits: ReviewFits;
+  if (cachedFits !== null) {
+    progress(`reusing the prior fitted to these ${included.length} tests of "${data.family}"`);
+    fits = fitsFromJson(cachedFits);
+  } else {
+    progress(`fitting the prior to ${included.length} tests of "${data.family}"`);
+    fits = await fitReviewPriors(observations, fitSettings, progress);
+    await writeCache(db, workspaceId, [
+      { cacheKey: fitsKey, kind: reviewFitsCacheKind, json: fitsToJson(fits) },
+    ]);
   }
+  const { fit, alternatives, bootstrapPriors, gridRowCoarse, lowered } = fits;
   progress("computing the review");
   const review = programReview({
     tests: data.reviewedTests,
@@ -261,14 +201,16 @@ export async function runReview(
   // Serialized once for the cache; what is returned is parsed back from the same text, so that a
   // fresh result and a cached one are the same document (NaN -> null).
   const summaryJson = JSON.stringify(summary);
-  const testsJson = JSON.stringify(tests);
+  // The per-test table (about 500 bytes a test) is serialized and stored only when asked for:
+  // for a large history that costs more than the summary's whole computation.
+  const testsJson = options.includeTests ? JSON.stringify(tests) : null;
   await writeCache(db, workspaceId, [
     { cacheKey, kind: reviewCacheKind, json: summaryJson },
-    { cacheKey: testsCacheKey, kind: reviewTestsCacheKind, json: testsJson },
+    ...(testsJson !== null ? [{ cacheKey: testsCacheKey, kind: reviewTestsCacheKind, json: testsJson }] : []),
   ]);
   return {
     summary: JSON.parse(summaryJson) as ReviewSummary,
-    tests: options.includeTests ? (JSON.parse(testsJson) as ReviewTestRow[]) : null,
+    tests: testsJson !== null ? (JSON.parse(testsJson) as ReviewTestRow[]) : null,
     cached: false,
     cacheKey,
   };

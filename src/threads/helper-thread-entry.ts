@@ -1,28 +1,22 @@
 /**
  * The body of the helper thread (helper-thread.ts), bundled and run there; it does nothing when
- * imported anywhere else. Each job is a pure computation over rows held in SharedArrayBuffers,
- * worked on chunk by chunk (shared-chunks.ts) beside the calling thread.
+ * imported anywhere else. It runs one job at a time (helper-jobs.ts) and answers with its result.
  */
 import { parentPort, workerData } from "node:worker_threads";
-import { emptyPosteriorColumns, writePosteriorRows } from "../stats/posterior.ts";
-import type { HelperJob, HelperReply } from "./helper-thread.ts";
-import { workOnNextChunk } from "./shared-chunks.ts";
-
-function runJob(job: HelperJob): void {
-  const columns = emptyPosteriorColumns(job.chunks.rows, job.level, job.columns);
-  const write = (from: number, to: number) => writePosteriorRows(job.prior, job.y, job.s, columns, from, to);
-  while (workOnNextChunk(job.chunks, write));
-}
+import { type HelperJob, runHelperJob } from "./helper-jobs.ts";
+import type { HelperReply } from "./helper-thread.ts";
 
 if (parentPort && (workerData as { role?: string } | null)?.role === "plumbline-helper") {
   const port = parentPort;
-  port.on("message", (job: HelperJob) => {
+  port.on("message", ({ jobId, job }: { jobId: number; job: HelperJob }) => {
     try {
-      runJob(job);
-      port.postMessage({ jobId: job.jobId, kind: "done" } satisfies HelperReply);
+      const progress = (value: unknown) =>
+        port.postMessage({ jobId, kind: "progress", value } satisfies HelperReply);
+      const value = runHelperJob(job, progress);
+      port.postMessage({ jobId, kind: "done", value } satisfies HelperReply);
     } catch (error) {
       const message = error instanceof Error ? error.message : String(error);
-      port.postMessage({ jobId: job.jobId, kind: "error", message } satisfies HelperReply);
+      port.postMessage({ jobId, kind: "error", message } satisfies HelperReply);
     }
   });
 }

@@ -1,41 +1,27 @@
 /**
- * One helper thread per process for large pure computations (src/stats functions over many rows),
- * so that a 2-core machine works on both cores. It is started on first use and kept for later
- * jobs, unref'd so that it never holds the process open. Jobs share their inputs and outputs
- * through SharedArrayBuffers and split their rows with an Atomics counter (posterior-threads.ts),
- * so the calling thread starts at once and the helper joins when it is up.
+ * One helper thread per process for large pure computations (helper-jobs.ts), so that a 2-core
+ * machine works on both cores. It is started on first use and kept for later jobs, unref'd while
+ * idle so that it never holds the process open. Jobs share their large inputs and outputs through
+ * SharedArrayBuffers, and split their work with Atomics counters, so the calling thread works
+ * beside the helper rather than waiting for it.
  *
- * The helper's code is its entry (helper-thread-entry.ts) bundled by esbuild into one CommonJS
- * text run with `eval`: a worker does not inherit the main thread's tsx hooks, and registering
- * them inside the worker costs about 0.25 s before its first message, the bundle and start about
- * 0.15 s (measured on the 2-core machine of the benchmarks).
+ * The helper's code is its entry (helper-thread-entry.ts) bundled by esbuild into one CommonJS text
+ * run with `eval`: a worker does not inherit the main thread's tsx hooks, and registering them
+ * inside the worker costs about 0.25 s before its first message, the bundle about 0.05 s and the
+ * worker's start about 0.1 s (measured on the 2-core machine of the benchmarks). The bundle is
+ * built synchronously, so a job can be posted at once and the helper takes it when it is up.
  *
- * Where a thread cannot start (or PLUMBLINE_THREADS=1), helperThread() resolves to null and the
- * callers compute everything on the calling thread; results never depend on which thread
- * computed a row.
+ * Where a thread cannot start (or PLUMBLINE_THREADS=1), helperThread() returns null and the
+ * callers compute everything on the calling thread; results never depend on which thread computed.
  */
 import { fileURLToPath } from "node:url";
 import { Worker } from "node:worker_threads";
-import { build } from "esbuild";
-import type { EffectPrior } from "../stats/effect-prior.ts";
-import type { SharedChunks } from "./shared-chunks.ts";
-
-/** A job for the helper: the posteriors of rows (posterior-threads.ts). */
-export interface HelperJob {
-  readonly jobId: number;
-  readonly kind: "posteriors";
-  readonly prior: EffectPrior;
-  readonly level: number;
-  /** Over SharedArrayBuffers. */
-  readonly y: Float64Array;
-  readonly s: Float64Array;
-  /** One SharedArrayBuffer per posterior column, in emptyPosteriorColumns' order. */
-  readonly columns: readonly SharedArrayBuffer[];
-  readonly chunks: SharedChunks;
-}
+import { buildSync } from "esbuild";
+import type { HelperJob } from "./helper-jobs.ts";
 
 export type HelperReply =
-  | { readonly jobId: number; readonly kind: "done" }
+  | { readonly jobId: number; readonly kind: "done"; readonly value: unknown }
+  | { readonly jobId: number; readonly kind: "progress"; readonly value: unknown }
   | { readonly jobId: number; readonly kind: "error"; readonly message: string };
 
 export class HelperThread {
@@ -47,7 +33,7 @@ export class HelperThread {
     worker.on("message", (reply: HelperReply) => this.listeners.get(reply.jobId)?.(reply));
     const fail = (error: Error) => {
       this.failure ??= error;
-      for (const listener of this.listeners.values()) listener(this.failure);
+      for (const listener of [...this.listeners.values()]) listener(this.failure);
       this.listeners.clear();
       forget(this);
     };
@@ -58,11 +44,11 @@ export class HelperThread {
   }
 
   /**
-   * Posts a job (its jobId is filled in here) and resolves when the helper reports it done;
-   * rejects when the helper reports an error or stops.
+   * Posts a job; resolves with its result when the helper is done, handing partial results to
+   * onProgress meanwhile; rejects when the helper reports an error or stops.
    */
-  run(job: Omit<HelperJob, "jobId">): Promise<void> {
-    return new Promise<void>((resolve, reject) => {
+  run<T>(job: HelperJob, onProgress?: (value: unknown) => void): Promise<T> {
+    return new Promise<T>((resolve, reject) => {
       if (this.failure) {
         reject(this.failure);
         return;
@@ -71,13 +57,17 @@ export class HelperThread {
       // Held open while a job is out (a caller may be waiting on it), let go when idle.
       this.worker.ref();
       this.listeners.set(jobId, (reply) => {
+        if (!(reply instanceof Error) && reply.kind === "progress") {
+          onProgress?.(reply.value);
+          return;
+        }
         this.listeners.delete(jobId);
         if (this.listeners.size === 0) this.worker.unref();
         if (reply instanceof Error) reject(reply);
         else if (reply.kind === "error") reject(new Error(reply.message));
-        else resolve();
+        else resolve(reply.value as T);
       });
-      this.worker.postMessage({ ...job, jobId } as HelperJob);
+      this.worker.postMessage({ jobId, job });
     });
   }
 
@@ -88,26 +78,30 @@ export class HelperThread {
   }
 }
 
-let started: Promise<HelperThread | null> | null = null;
 let current: HelperThread | null = null;
+let bundle: string | null = null;
 
 /** A stopped or failed helper is replaced by a new one on the next call. */
 function forget(helper: HelperThread): void {
-  if (current !== helper) return;
-  current = null;
-  started = null;
+  if (current === helper) current = null;
 }
 
 /** The process's helper thread, started on first call; null where none can run. */
-export function helperThread(): Promise<HelperThread | null> {
-  if (process.env.PLUMBLINE_THREADS === "1") return Promise.resolve(null);
-  started ??= startHelper().catch(() => null);
-  return started;
+export function helperThread(): HelperThread | null {
+  if (process.env.PLUMBLINE_THREADS === "1") return null;
+  if (current) return current;
+  try {
+    bundle ??= bundleEntry();
+    current = new HelperThread(new Worker(bundle, { eval: true, workerData: { role: "plumbline-helper" } }));
+  } catch {
+    return null;
+  }
+  return current;
 }
 
-async function startHelper(): Promise<HelperThread> {
+function bundleEntry(): string {
   const entry = fileURLToPath(new URL("./helper-thread-entry.ts", import.meta.url));
-  const bundled = await build({
+  const built = buildSync({
     entryPoints: [entry],
     bundle: true,
     write: false,
@@ -116,8 +110,14 @@ async function startHelper(): Promise<HelperThread> {
     target: "node20",
     logLevel: "silent",
   });
-  const code = bundled.outputFiles[0]?.text;
+  const code = built.outputFiles[0]?.text;
   if (!code) throw new Error("the helper thread's bundle is empty");
-  current = new HelperThread(new Worker(code, { eval: true, workerData: { role: "plumbline-helper" } }));
-  return current;
+  return code;
+}
+
+/** A copy of `values` over a SharedArrayBuffer, for jobs. */
+export function sharedFloat64(values: ArrayLike<number>): Float64Array {
+  const copy = new Float64Array(new SharedArrayBuffer(8 * Math.max(1, values.length)), 0, values.length);
+  for (let i = 0; i < values.length; i++) copy[i] = values[i] as number;
+  return copy;
 }

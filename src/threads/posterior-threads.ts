@@ -1,7 +1,7 @@
 /**
  * posteriorColumns on two threads: the calling thread and the process's helper thread
  * (helper-thread.ts) write the rows chunk by chunk. The calling thread starts at once and yields
- * between chunks, so that the helper can start (or take its job) meanwhile; whatever chunk the
+ * between chunks (so that other requests are served meanwhile); whatever chunk the
  * helper claimed but did not finish, because it failed, is written here afterwards. Each row
  * depends on its own (y, s) only, so the columns are the same as posteriorColumns' (a test checks).
  */
@@ -14,18 +14,12 @@ import {
   validatePosteriorInputs,
   writePosteriorRows,
 } from "../stats/posterior.ts";
-import { helperThread } from "./helper-thread.ts";
+import { helperThread, sharedFloat64 } from "./helper-thread.ts";
 import { chunkRange, createSharedChunks, unwrittenChunks, workOnNextChunk } from "./shared-chunks.ts";
 
 /** Below this many rows one thread is faster than sharing (the helper's start costs ~0.15 s once). */
 export const threadedPosteriorRows = 50_000;
 const chunkRows = 8192;
-
-function sharedCopy(values: ArrayLike<number>): Float64Array {
-  const copy = new Float64Array(new SharedArrayBuffer(8 * Math.max(1, values.length)), 0, values.length);
-  for (let i = 0; i < values.length; i++) copy[i] = values[i] as number;
-  return copy;
-}
 
 const yieldToEventLoop = (): Promise<void> => new Promise((resolve) => setImmediate(resolve));
 
@@ -42,18 +36,15 @@ export async function posteriorColumnsOnThreads(
   if (y.length < threadedPosteriorRows) return posteriorColumns(prior, y, s, level);
   validatePosteriorInputs(y, s, level);
   const rows = y.length;
-  const sharedY = sharedCopy(y);
-  const sharedS = sharedCopy(s);
+  const sharedY = sharedFloat64(y);
+  const sharedS = sharedFloat64(s);
   const buffers = Array.from({ length: posteriorColumnCount }, () => new SharedArrayBuffer(8 * rows));
   const columns = emptyPosteriorColumns(rows, level, buffers);
   const chunks = createSharedChunks(rows, chunkRows);
-  let helperJob: Promise<void> | null = null;
-  const helperStarted = helperThread().then((helper) => {
-    if (!helper || Atomics.load(chunks.next, 0) >= chunks.done.length) return;
-    helperJob = helper
-      .run({ kind: "posteriors", prior, level, y: sharedY, s: sharedS, columns: buffers, chunks })
-      .catch(() => undefined);
-  });
+  // Posted at once: the helper takes it when it is up, and finds nothing left if this thread was faster.
+  const helperJob = helperThread()
+    ?.run<null>({ kind: "posteriors", prior, level, y: sharedY, s: sharedS, columns: buffers, chunks })
+    .catch(() => null);
   let writtenHere = 0;
   const write = (from: number, to: number) => {
     writePosteriorRows(prior, sharedY, sharedS, columns, from, to);
@@ -62,7 +53,6 @@ export async function posteriorColumnsOnThreads(
   while (workOnNextChunk(chunks, write)) await yieldToEventLoop();
   if (unwrittenChunks(chunks).length > 0) {
     // The helper holds chunks: wait for it (it finishes them, or fails and they are written here).
-    await helperStarted;
     await helperJob;
     for (const chunk of unwrittenChunks(chunks)) write(...chunkRange(chunks, chunk));
   }

@@ -1,8 +1,9 @@
 import { eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { dataVersions, experiments, results, reviews, workspaces } from "../../src/db/schema.ts";
+import { computationCache, dataVersions, experiments, results, reviews, workspaces } from "../../src/db/schema.ts";
 import { generateDemo } from "../../src/demo/generate-demo.ts";
 import { quarterOf, quarterRange, resolveFilters } from "../../src/review/review-filters.ts";
+import { fitsFromJson, fitsToJson, type ReviewFits } from "../../src/review/review-fits.ts";
 import { runReview } from "../../src/review/run-review.ts";
 import {
   compareReviews,
@@ -163,4 +164,105 @@ describe("runReview on a stored workspace", () => {
     const stored = await handle.db.select().from(reviews);
     expect(stored.length).toBe(2);
   }, 120_000);
+});
+
+describe("cached prior fits", () => {
+  const cacheKinds = async () =>
+    (await handle.db.select({ kind: computationCache.kind }).from(computationCache)).map((row) => row.kind);
+  const clearCache = async (kind?: string) => {
+    if (kind) await handle.db.delete(computationCache).where(eq(computationCache.kind, kind));
+    else await handle.db.delete(computationCache);
+  };
+  const reviewWithProgress = async (request: Parameters<typeof runReview>[2], includeTests = false) => {
+    const messages: string[] = [];
+    const outcome = await runReview(handle.db, workspaceId, request, {
+      includeTests,
+      onProgress: (message) => messages.push(message),
+    });
+    return { outcome, messages };
+  };
+
+  it("are reused by reviews that differ only in filters or thresholds, with the same figures as fresh fits", async () => {
+    await clearCache();
+    const request = { filters: { family: "conversion" }, delta: 0.002, bootstrap: 30 };
+    const fresh = await reviewWithProgress(request);
+    expect(fresh.messages.some((message) => message.startsWith("fitting the prior"))).toBe(true);
+    expect(await cacheKinds()).toContain("review-fits");
+    // The per-test table is only stored when asked for.
+    expect(await cacheKinds()).not.toContain("review-tests");
+
+    // Same settings from cached fits (the review entry dropped): the very same summary.
+    await clearCache("review");
+    const fromCachedFits = await reviewWithProgress(request);
+    expect(fromCachedFits.outcome.cached).toBe(false);
+    expect(fromCachedFits.messages.some((message) => message.startsWith("reusing the prior"))).toBe(true);
+    expect(fromCachedFits.messages.some((message) => message.startsWith("fitting the prior"))).toBe(false);
+    expect(fromCachedFits.outcome.summary).toEqual(fresh.outcome.summary);
+
+    // Another threshold and team: no refit; the prior figures are those of the whole family.
+    const team = demo.truth.experiments.find((row) => row.isPrimary && row.family === "conversion")
+      ?.team as string;
+    const other = await reviewWithProgress({ ...request, delta: 0.004, filters: { family: "conversion", team } });
+    expect(other.messages.some((message) => message.startsWith("fitting the prior"))).toBe(false);
+    expect(other.outcome.summary.prior.logLik).toBe(fresh.outcome.summary.prior.logLik);
+
+    // The per-test table asked for after its summary: computed from the cached fits, then stored.
+    const withTests = await reviewWithProgress(request, true);
+    expect(withTests.outcome.cached).toBe(false);
+    expect(withTests.messages.some((message) => message.startsWith("fitting the prior"))).toBe(false);
+    expect(withTests.outcome.tests?.length).toBe(fresh.outcome.summary.counts.included);
+    expect(await cacheKinds()).toContain("review-tests");
+    const again = await reviewWithProgress(request, true);
+    expect(again.outcome.cached).toBe(true);
+    expect(again.outcome.tests).toEqual(withTests.outcome.tests);
+  }, 120_000);
+
+  it("are refitted when the fit settings change", async () => {
+    const base = { filters: { family: "conversion" }, bootstrap: 0 };
+    await reviewWithProgress(base);
+    for (const change of [{ nullWeight: 3 }, { priorFamily: "symmetric" as const }, { seed: 5, bootstrap: 10 }]) {
+      const changed = await reviewWithProgress({ ...base, ...change });
+      expect(changed.messages.some((message) => message.startsWith("fitting the prior"))).toBe(true);
+    }
+  }, 120_000);
+
+  it("keep an explicitly asked number of refits apart from the default one", async () => {
+    await clearCache();
+    const byDefault = await runReview(handle.db, workspaceId, { filters: { family: "conversion" } });
+    const asked = await runReview(handle.db, workspaceId, { filters: { family: "conversion" }, bootstrap: 100 });
+    // Below the large-history threshold both mean 100 refits, but they are separate entries.
+    expect(asked.cached).toBe(false);
+    expect(asked.cacheKey).not.toBe(byDefault.cacheKey);
+    expect(asked.summary.assumptions.bootstrapRefits).toBe(byDefault.summary.assumptions.bootstrapRefits);
+  }, 120_000);
+
+  it("round-trip through their cache text exactly, typed arrays and non-finite numbers included", () => {
+    const fits = {
+      fit: {
+        family: "symmetric",
+        prior: { family: "symmetric", components: [{ component: { kind: "point", at: 0 }, weight: 1 }] },
+        logLik: Number.NEGATIVE_INFINITY,
+        penalizedLogLik: -0,
+        iterations: 3,
+        converged: false,
+        optimalityGap: Number.NaN,
+        grid: [{ kind: "normal", mean: 0, scale: 0.1 + 0.2 }],
+        componentWeights: Float64Array.from([0.1, 1 / 3, Number.POSITIVE_INFINITY, -0, 5e-324]),
+        nullWeight: 10,
+        observationCount: 7,
+      },
+      alternatives: [],
+      bootstrapPriors: [],
+      gridRowCoarse: true,
+      lowered: false,
+    } as unknown as ReviewFits;
+    const back = fitsFromJson(fitsToJson(fits));
+    expect(back.fit.componentWeights).toBeInstanceOf(Float64Array);
+    expect(Array.from(back.fit.componentWeights)).toEqual(Array.from(fits.fit.componentWeights));
+    expect(Object.is(back.fit.componentWeights[3], -0)).toBe(true);
+    expect(back.fit.logLik).toBe(Number.NEGATIVE_INFINITY);
+    expect(Object.is(back.fit.penalizedLogLik, -0)).toBe(true);
+    expect(back.fit.optimalityGap).toBeNaN();
+    expect(back).toEqual(fits);
+  });
 });

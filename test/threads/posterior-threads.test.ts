@@ -52,12 +52,18 @@ function differingEntries(a: PosteriorColumns, b: PosteriorColumns): number {
 }
 
 afterAll(async () => {
-  await (await helperThread())?.stop();
+  await helperThread()?.stop();
 });
 
 describe("posteriors on two threads", () => {
   it("equal posteriorColumns entry for entry, with the helper writing a share", async () => {
-    await helperThread(); // up before the job, so that it takes a share
+    // Started and given a first job before this one, so that it is up and takes a share.
+    await posteriorColumnsOnThreads(
+      prior,
+      y.subarray(0, threadedPosteriorRows),
+      s.subarray(0, threadedPosteriorRows),
+      0.9,
+    );
     let share = { chunks: 0, byHelper: 0 };
     const columns = await posteriorColumnsOnThreads(prior, y, s, 0.9, {
       onShare: (value) => (share = value),
@@ -69,13 +75,13 @@ describe("posteriors on two threads", () => {
   });
 
   it("finishes on this thread what a helper stopped mid-job left unwritten", async () => {
-    const helper = await helperThread();
+    const helper = helperThread();
     expect(helper).not.toBeNull();
     const job = posteriorColumnsOnThreads(prior, y, s, 0.9);
     setTimeout(() => void helper?.stop(), 5);
     expect(differingEntries(await job, reference)).toBe(0);
     // The next job gets a new helper.
-    const next = await helperThread();
+    const next = helperThread();
     expect(next).not.toBeNull();
     expect(next).not.toBe(helper);
   });

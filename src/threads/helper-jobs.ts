@@ -1,0 +1,81 @@
+/**
+ * The jobs the helper thread (helper-thread.ts) runs, and how it runs them. Every job is a pure
+ * computation over inputs held in SharedArrayBuffers or copied with the message, so its result is
+ * the same whichever thread computes it:
+ * - "posteriors": posterior rows, chunk by chunk beside the calling thread (posterior-threads.ts);
+ * - "coarse-grid": the grid family's fit on a coarse grid (refit-threads.ts);
+ * - "refits": bootstrap refits claimed one at a time from a shared counter (refit-threads.ts).
+ */
+import { type Resample, refitResample } from "../stats/bootstrap-prior.ts";
+import type { EffectPrior, PriorComponent } from "../stats/effect-prior.ts";
+import { type FamilyFit, type FitFamily, fitOnMatrix } from "../stats/fit-effect-prior.ts";
+import { likelihoodMatrix } from "../stats/likelihood-matrix.ts";
+import { emptyPosteriorColumns, writePosteriorRows } from "../stats/posterior.ts";
+import { thetaGridComponents } from "../stats/prior-grid.ts";
+import { type SharedChunks, workOnNextChunk } from "./shared-chunks.ts";
+
+export type HelperJob =
+  | {
+      readonly kind: "posteriors";
+      readonly prior: EffectPrior;
+      readonly level: number;
+      /** Over SharedArrayBuffers. */
+      readonly y: Float64Array;
+      readonly s: Float64Array;
+      /** One SharedArrayBuffer per posterior column, in emptyPosteriorColumns' order. */
+      readonly columns: readonly SharedArrayBuffer[];
+      readonly chunks: SharedChunks;
+    }
+  | {
+      readonly kind: "coarse-grid";
+      readonly y: Float64Array;
+      readonly s: Float64Array;
+      readonly points: number;
+      readonly nullWeight: number;
+    }
+  | {
+      readonly kind: "refits";
+      readonly y: Float64Array;
+      readonly s: Float64Array;
+      readonly grid: readonly PriorComponent[];
+      readonly family: FitFamily;
+      readonly nullWeight: number;
+      readonly componentWeights: Float64Array;
+      readonly resamples: readonly Resample[];
+      /** Int32Array(1) over a SharedArrayBuffer: the next resample to claim. */
+      readonly next: Int32Array;
+    };
+
+/** A refit handed back as soon as it is done. */
+export interface RefitProgress {
+  readonly index: number;
+  readonly fit: FamilyFit;
+}
+
+/** Runs a job in the helper; `progress` hands back partial results (refits). */
+export function runHelperJob(job: HelperJob, progress: (value: unknown) => void): unknown {
+  switch (job.kind) {
+    case "posteriors": {
+      const columns = emptyPosteriorColumns(job.chunks.rows, job.level, job.columns);
+      const write = (from: number, to: number) =>
+        writePosteriorRows(job.prior, job.y, job.s, columns, from, to);
+      while (workOnNextChunk(job.chunks, write));
+      return null;
+    }
+    case "coarse-grid": {
+      const grid = thetaGridComponents({ y: job.y, s: job.s }, job.points);
+      return fitOnMatrix(likelihoodMatrix(job.y, job.s, grid), grid, "grid", job.nullWeight);
+    }
+    case "refits": {
+      const matrix = likelihoodMatrix(job.y, job.s, job.grid);
+      for (;;) {
+        const index = Atomics.add(job.next, 0, 1);
+        if (index >= job.resamples.length) return null;
+        progress({
+          index,
+          fit: refitResample(matrix, job, job.resamples[index] as Resample),
+        } satisfies RefitProgress);
+      }
+    }
+  }
+}
