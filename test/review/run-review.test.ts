@@ -1,6 +1,13 @@
 import { eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
-import { computationCache, dataVersions, experiments, results, reviews, workspaces } from "../../src/db/schema.ts";
+import {
+  computationCache,
+  dataVersions,
+  experiments,
+  results,
+  reviews,
+  workspaces,
+} from "../../src/db/schema.ts";
 import { generateDemo } from "../../src/demo/generate-demo.ts";
 import { quarterOf, quarterRange, resolveFilters } from "../../src/review/review-filters.ts";
 import { fitsFromJson, fitsToJson, type ReviewFits } from "../../src/review/review-fits.ts";
@@ -202,7 +209,11 @@ describe("cached prior fits", () => {
     // Another threshold and team: no refit; the prior figures are those of the whole family.
     const team = demo.truth.experiments.find((row) => row.isPrimary && row.family === "conversion")
       ?.team as string;
-    const other = await reviewWithProgress({ ...request, delta: 0.004, filters: { family: "conversion", team } });
+    const other = await reviewWithProgress({
+      ...request,
+      delta: 0.004,
+      filters: { family: "conversion", team },
+    });
     expect(other.messages.some((message) => message.startsWith("fitting the prior"))).toBe(false);
     expect(other.outcome.summary.prior.logLik).toBe(fresh.outcome.summary.prior.logLik);
 
@@ -220,7 +231,11 @@ describe("cached prior fits", () => {
   it("are refitted when the fit settings change", async () => {
     const base = { filters: { family: "conversion" }, bootstrap: 0 };
     await reviewWithProgress(base);
-    for (const change of [{ nullWeight: 3 }, { priorFamily: "symmetric" as const }, { seed: 5, bootstrap: 10 }]) {
+    for (const change of [
+      { nullWeight: 3 },
+      { priorFamily: "symmetric" as const },
+      { seed: 5, bootstrap: 10 },
+    ]) {
       const changed = await reviewWithProgress({ ...base, ...change });
       expect(changed.messages.some((message) => message.startsWith("fitting the prior"))).toBe(true);
     }
@@ -229,7 +244,10 @@ describe("cached prior fits", () => {
   it("keep an explicitly asked number of refits apart from the default one", async () => {
     await clearCache();
     const byDefault = await runReview(handle.db, workspaceId, { filters: { family: "conversion" } });
-    const asked = await runReview(handle.db, workspaceId, { filters: { family: "conversion" }, bootstrap: 100 });
+    const asked = await runReview(handle.db, workspaceId, {
+      filters: { family: "conversion" },
+      bootstrap: 100,
+    });
     // Below the large-history threshold both mean 100 refits, but they are separate entries.
     expect(asked.cached).toBe(false);
     expect(asked.cacheKey).not.toBe(byDefault.cacheKey);
