@@ -91,24 +91,20 @@ export function posteriorSumsUnderPriors(
   const thresholdCount = thresholds.length;
   const uniforms = uniformBounds(shared, thresholds);
   // Per result: each shared component's log-likelihood, scaled likelihood and figures.
-  const logLikelihood = new Float64Array(k);
-  const likelihood = new Float64Array(k);
-  const mean = new Float64Array(k);
-  const probNull = new Float64Array(k);
-  const probNegative = new Float64Array(k);
-  const probPositive = new Float64Array(k);
-  const above = new Float64Array(k * thresholdCount);
-  const share = new Float64Array(k);
+  const stride = firstAbove + thresholdCount;
+  const rows: RowState = {
+    weights,
+    supports,
+    logLikelihood: new Float64Array(k),
+    likelihood: new Float64Array(k),
+    stride,
+    figures: new Float64Array(k * stride),
+    row: new Float64Array(stride + 1),
+    sums: priors.map(() => new Float64Array(stride)),
+  };
+  const { logLikelihood, likelihood, figures } = rows;
   const scratch = createComponentPosterior();
   const summary = createComponentSummary(thresholdCount);
-  const sums = priors.map(() => ({
-    mean: 0,
-    probNull: 0,
-    probNegative: 0,
-    probPositive: 0,
-    probAbove: new Float64Array(thresholdCount),
-  }));
-  const rowAbove = new Float64Array(thresholdCount);
 
   for (let i = 0; i < count; i++) {
     const yi = y[i] as number;
@@ -124,71 +120,110 @@ export function posteriorSumsUnderPriors(
       }
       const value = logLikelihood[c] as number;
       if (value > largest) largest = value;
-      mean[c] = summary.mean;
-      probNull[c] = summary.probNull;
-      probNegative[c] = summary.probNegative;
-      probPositive[c] = summary.probPositive;
-      for (let j = 0; j < thresholdCount; j++) above[c * thresholdCount + j] = summary.above[j] as number;
+      const offset = c * stride;
+      figures[offset + figureMean] = summary.mean;
+      figures[offset + figureNull] = summary.probNull;
+      figures[offset + figureNegative] = summary.probNegative;
+      figures[offset + figurePositive] = summary.probPositive;
+      for (let j = 0; j < thresholdCount; j++) figures[offset + firstAbove + j] = summary.above[j] as number;
     }
     for (let c = 0; c < k; c++) likelihood[c] = Math.exp((logLikelihood[c] as number) - largest);
-
-    for (let b = 0; b < priors.length; b++) {
-      const w = weights[b] as Float64Array;
-      const support = supports[b] as Int32Array;
-      let total = 0;
-      for (let index = 0; index < support.length; index++) {
-        const c = support[index] as number;
-        const part = (w[c] as number) * (likelihood[c] as number);
-        share[c] = part;
-        total += part;
-      }
-      if (!(total > smallestReliableTotal)) {
-        // Log space for this prior's own components: their largest joint is the scale.
-        let best = Number.NEGATIVE_INFINITY;
-        for (let index = 0; index < support.length; index++) {
-          const c = support[index] as number;
-          best = Math.max(best, Math.log(w[c] as number) + (logLikelihood[c] as number));
-        }
-        total = 0;
-        for (let index = 0; index < support.length; index++) {
-          const c = support[index] as number;
-          const part = Math.exp(Math.log(w[c] as number) + (logLikelihood[c] as number) - best);
-          share[c] = part;
-          total += part;
-        }
-      }
-      let rowMean = 0;
-      let rowNull = 0;
-      let rowNegative = 0;
-      let rowPositive = 0;
-      rowAbove.fill(0);
-      for (let index = 0; index < support.length; index++) {
-        const c = support[index] as number;
-        const weight = (share[c] as number) / total;
-        if (!(weight > 0)) continue;
-        rowMean += weight * (mean[c] as number);
-        rowNull += weight * (probNull[c] as number);
-        rowNegative += weight * (probNegative[c] as number);
-        rowPositive += weight * (probPositive[c] as number);
-        for (let j = 0; j < thresholdCount; j++)
-          rowAbove[j] = (rowAbove[j] as number) + weight * (above[c * thresholdCount + j] as number);
-      }
-      const sum = sums[b] as (typeof sums)[number];
-      sum.mean += rowMean;
-      sum.probNull += Math.min(1, rowNull);
-      sum.probNegative += Math.min(1, rowNegative);
-      sum.probPositive += Math.min(1, rowPositive);
-      for (let j = 0; j < thresholdCount; j++)
-        sum.probAbove[j] = (sum.probAbove[j] as number) + Math.min(1, rowAbove[j] as number);
-    }
+    addRowUnderPriors(rows);
   }
-  return sums.map((sum) => ({
-    mean: sum.mean,
-    probNull: sum.probNull,
-    probNegative: sum.probNegative,
-    probPositive: sum.probPositive,
-    probAbove: Array.from(sum.probAbove),
+  return rows.sums.map((sum) => ({
+    mean: sum[figureMean] as number,
+    probNull: sum[figureNull] as number,
+    probNegative: sum[figureNegative] as number,
+    probPositive: sum[figurePositive] as number,
+    probAbove: Array.from(sum.subarray(firstAbove)),
   }));
+}
+
+/**
+ * Per result, the shared components' log-likelihoods, scaled likelihoods and figures (packed
+ * `stride` apart: mean, P(null), P(theta < 0), P(theta > 0), then P(theta > t_j)), and each
+ * prior's weights over them and its running sums.
+ */
+interface RowState {
+  readonly weights: readonly Float64Array[];
+  readonly supports: readonly Int32Array[];
+  readonly logLikelihood: Float64Array;
+  readonly likelihood: Float64Array;
+  readonly stride: number;
+  readonly figures: Float64Array;
+  /** Scratch: the row's total weight, then its weighted figures. */
+  readonly row: Float64Array;
+  /** Per prior, `stride` running sums in the order of the figures. */
+  readonly sums: readonly Float64Array[];
+}
+
+const figureMean = 0;
+const figureNull = 1;
+const figureNegative = 2;
+const figurePositive = 3;
+const firstAbove = 4;
+
+/**
+ * The current result's weighted figures under prior b into rows.row ([total, figures...]), the
+ * weights w_k L_k scaled by the shared largest likelihood, or in log space from `best` (the
+ * prior's own largest log joint) when that scaling underflows for its components.
+ */
+function weighRow(rows: RowState, b: number, logSpaceBest: number | null): void {
+  const { logLikelihood, likelihood, stride, figures, row } = rows;
+  const w = rows.weights[b] as Float64Array;
+  const support = rows.supports[b] as Int32Array;
+  // Locals for the fixed figures (kept in registers), the row for the thresholds.
+  let total = 0;
+  let mean = 0;
+  let probNull = 0;
+  let probNegative = 0;
+  let probPositive = 0;
+  for (let f = 1 + firstAbove; f <= stride; f++) row[f] = 0;
+  for (let index = 0; index < support.length; index++) {
+    const c = support[index] as number;
+    const part =
+      logSpaceBest === null
+        ? (w[c] as number) * (likelihood[c] as number)
+        : Math.exp(Math.log(w[c] as number) + (logLikelihood[c] as number) - logSpaceBest);
+    if (!(part > 0)) continue;
+    const offset = c * stride;
+    total += part;
+    mean += part * (figures[offset + figureMean] as number);
+    probNull += part * (figures[offset + figureNull] as number);
+    probNegative += part * (figures[offset + figureNegative] as number);
+    probPositive += part * (figures[offset + figurePositive] as number);
+    for (let f = firstAbove; f < stride; f++)
+      row[f + 1] = (row[f + 1] as number) + part * (figures[offset + f] as number);
+  }
+  row[0] = total;
+  row[1 + figureMean] = mean;
+  row[1 + figureNull] = probNull;
+  row[1 + figureNegative] = probNegative;
+  row[1 + figurePositive] = probPositive;
+}
+
+/** Adds the current result's figures under each prior to its sums (its own function: it runs hot). */
+function addRowUnderPriors(rows: RowState): void {
+  const { stride, row } = rows;
+  for (let b = 0; b < rows.weights.length; b++) {
+    weighRow(rows, b, null);
+    if (!((row[0] as number) > smallestReliableTotal)) {
+      const w = rows.weights[b] as Float64Array;
+      const support = rows.supports[b] as Int32Array;
+      let best = Number.NEGATIVE_INFINITY;
+      for (let index = 0; index < support.length; index++) {
+        const c = support[index] as number;
+        best = Math.max(best, Math.log(w[c] as number) + (rows.logLikelihood[c] as number));
+      }
+      weighRow(rows, b, best);
+    }
+    const inverse = 1 / (row[0] as number);
+    const sum = rows.sums[b] as Float64Array;
+    sum[figureMean] = (sum[figureMean] as number) + (row[1 + figureMean] as number) * inverse;
+    // Probabilities are capped at 1 row by row (rounding can carry a sum of shares past it).
+    for (let f = figureNull; f < stride; f++)
+      sum[f] = (sum[f] as number) + Math.min(1, (row[f + 1] as number) * inverse);
+  }
 }
 
 // Below this an interval's mass computed in linear space has lost precision to underflow.
@@ -206,6 +241,7 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
   const to = new Int32Array(k);
   const lower = new Float64Array(k);
   const upper = new Float64Array(k);
+  const logWidth = new Float64Array(k);
   let count = 0;
   components.forEach((component, c) => {
     if (component.kind === "uniform" && component.upper > component.lower) {
@@ -214,6 +250,7 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
       to[c] = points.indexOf(component.upper);
       lower[c] = component.lower;
       upper[c] = component.upper;
+      logWidth[c] = Math.log(component.upper - component.lower);
       count++;
     }
   });
@@ -249,7 +286,7 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
       if (!(total > smallestLinearMass)) return false;
       const l = lower[c] as number;
       const u = upper[c] as number;
-      state.logLikelihood = Math.log(total) - Math.log(u - l);
+      state.logLikelihood = Math.log(total) - (logWidth[c] as number);
       out.mean = Math.min(
         u,
         Math.max(l, y + (s * ((density[a] as number) - (density[b] as number))) / total),
