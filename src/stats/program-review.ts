@@ -305,17 +305,6 @@ function testColumns(tests: readonly ReviewTest[]): TestColumns {
   return { y: Float64Array.from(tests, (test) => test.y), s: Float64Array.from(tests, (test) => test.s) };
 }
 
-/** The program sums under one prior (the sums kernel of posterior-sums.ts, no credible intervals). */
-function programSums(
-  prior: EffectPrior,
-  shipped: TestColumns,
-  notShipped: TestColumns,
-  delta: number,
-  practical: number | null,
-): ProgramSums {
-  return programSumsUnderRefits([prior], shipped, notShipped, delta, practical)[0] as ProgramSums;
-}
-
 /**
  * The program sums under each of several priors: bootstrap refits share the fit's components, so
  * each test's component figures are computed once for all of them (posterior-sums.ts).
@@ -506,12 +495,28 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
   // Headline sums under the fit and under each refit.
   const shippedColumns = testColumns(shipped);
   const notShippedColumns = testColumns(notShipped);
-  const main = programSums(prior, shippedColumns, notShippedColumns, delta, practical);
+  // The fit, its refits and the other families' fits in one pass: the refits share the fit's
+  // components, so each test's component figures are computed once for all of them.
+  const sensitivityFits = [input.fit, ...(input.alternativeFits ?? [])].filter(
+    (fit, index, all) => all.findIndex((other) => other.family === fit.family) === index,
+  );
+  const otherFits = sensitivityFits.filter((fit) => fit !== input.fit);
+  const allSums = programSumsUnderRefits(
+    [prior, ...bootstrapPriors, ...otherFits.map((fit) => fit.prior)],
+    shippedColumns,
+    notShippedColumns,
+    delta,
+    practical,
+  );
+  const main = allSums[0] as ProgramSums;
+  const refits = allSums.slice(1, 1 + bootstrapPriors.length);
+  const otherSums = new Map(
+    otherFits.map((fit, index) => [fit, allSums[1 + bootstrapPriors.length + index] as ProgramSums]),
+  );
   const shippedMeans = Float64Array.from(
     shipped,
     (test) => includedPosteriors.mean[includedIndex.get(test) as number] as number,
   );
-  const refits = programSumsUnderRefits(bootstrapPriors, shippedColumns, notShippedColumns, delta, practical);
   const claimedSum = shipped.reduce((total, test) => total + test.y, 0);
   const claimedCompounded = shipped.reduce((product, test) => product * (1 + test.y), 1) - 1;
   const shippedCount = shipped.length;
@@ -547,25 +552,20 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
   const realizedCalibration =
     realizedComparisons.length > 0 ? predictiveCalibration(realizedComparisons, { level }) : null;
 
-  const sensitivity: SensitivityRow[] = [input.fit, ...(input.alternativeFits ?? [])]
-    .filter((fit, index, all) => all.findIndex((other) => other.family === fit.family) === index)
-    .map((fit) => {
-      const sums =
-        fit === input.fit
-          ? main
-          : programSums(fit.prior, shippedColumns, notShippedColumns, delta, practical);
-      return {
-        family: fit.family,
-        chosen: fit === input.fit,
-        logLik: fit.logLik,
-        nullShare: nullShare(fit.prior),
-        expectedFalseWins: sums.falseWins,
-        falseDiscoveryRate: fdr(sums.falseWins),
-        expectedRealizedLift: sums.realizedSum,
-        realizationRatio: ratio(sums),
-        missedWins: sums.missedWins,
-      };
-    });
+  const sensitivity: SensitivityRow[] = sensitivityFits.map((fit) => {
+    const sums = fit === input.fit ? main : (otherSums.get(fit) as ProgramSums);
+    return {
+      family: fit.family,
+      chosen: fit === input.fit,
+      logLik: fit.logLik,
+      nullShare: nullShare(fit.prior),
+      expectedFalseWins: sums.falseWins,
+      falseDiscoveryRate: fdr(sums.falseWins),
+      expectedRealizedLift: sums.realizedSum,
+      realizationRatio: ratio(sums),
+      missedWins: sums.missedWins,
+    };
+  });
 
   const leftOut = { aa: aaCount, sampleRatioMismatch: srmCount, missingStandardError: missingSeCount };
   const statements = [
