@@ -10,6 +10,8 @@ import type { FitFamily } from "../stats/fit-effect-prior.ts";
 import { defaultThetaGridPointCount } from "../stats/prior-grid.ts";
 import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
 import { createRandom } from "../stats/random.ts";
+import { posteriorColumnsOnThreadsNow } from "../threads/posterior-threads.ts";
+import { posteriorSumsOnThreads } from "../threads/sums-threads.ts";
 import { readReviewData } from "./read-review-data.ts";
 import {
   readCache,
@@ -168,6 +170,8 @@ export async function runReview(
     alternativeFits: alternatives,
     bootstrapPriors,
     random: createRandom(settings.seed),
+    // Large histories share the per-test posteriors and program sums with the helper thread.
+    kernels: { posteriorColumns: posteriorColumnsOnThreadsNow, posteriorSums: posteriorSumsOnThreads },
     settings: {
       delta: settings.delta,
       practicalThreshold: settings.practicalThreshold,

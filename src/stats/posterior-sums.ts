@@ -42,6 +42,25 @@ export interface PosteriorSums {
 // Below this the scaled row total has lost too much of its precision: redo the row in log space.
 const smallestReliableTotal = 1e-280;
 
+/**
+ * Checks what posteriorSumsUnderPriors checks (equal lengths, finite y and thresholds, positive
+ * finite s), throwing StatsInputError naming the first offending entry.
+ */
+export function validateSumsInputs(
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  thresholds: readonly number[],
+): void {
+  if (y.length !== s.length)
+    throw new StatsInputError("s", `of the same length as y (${y.length})`, s.length);
+  for (const [j, threshold] of thresholds.entries()) requireFinite(`thresholds[${j}]`, threshold);
+  for (let i = 0; i < y.length; i++) {
+    if (!Number.isFinite(y[i] as number)) requireFinite(`y[${i}]`, y[i] as number);
+    const si = s[i] as number;
+    if (!(si > 0 && si < Number.POSITIVE_INFINITY)) requirePositive(`s[${i}]`, si);
+  }
+}
+
 /** For each prior, the sums over results i of its posterior figures for (y[i], s[i]). */
 export function posteriorSumsUnderPriors(
   priors: readonly EffectPrior[],
@@ -49,15 +68,8 @@ export function posteriorSumsUnderPriors(
   s: ArrayLike<number>,
   thresholds: readonly number[] = [],
 ): PosteriorSums[] {
-  if (y.length !== s.length)
-    throw new StatsInputError("s", `of the same length as y (${y.length})`, s.length);
-  for (const [j, threshold] of thresholds.entries()) requireFinite(`thresholds[${j}]`, threshold);
+  validateSumsInputs(y, s, thresholds);
   const count = y.length;
-  for (let i = 0; i < count; i++) {
-    if (!Number.isFinite(y[i] as number)) requireFinite(`y[${i}]`, y[i] as number);
-    const si = s[i] as number;
-    if (!(si > 0 && si < Number.POSITIVE_INFINITY)) requirePositive(`s[${i}]`, si);
-  }
   if (priors.length === 0) return [];
 
   // The shared components (by value) and each prior's weights over them.

@@ -100,6 +100,16 @@ export interface ProgramReviewInput {
   readonly random: RandomSource;
   /** Free text the caller adds to the assumptions (e.g. how tests were read and filtered). */
   readonly extraAssumptions?: readonly string[];
+  /**
+   * The per-result kernels, for a caller that runs them on more threads with the same results
+   * (src/threads); default posteriorColumns and posteriorSumsUnderPriors.
+   */
+  readonly kernels?: ReviewKernels;
+}
+
+export interface ReviewKernels {
+  readonly posteriorColumns: typeof posteriorColumns;
+  readonly posteriorSums: typeof posteriorSumsUnderPriors;
 }
 
 export interface Interval {
@@ -315,10 +325,11 @@ function programSumsUnderRefits(
   notShipped: TestColumns,
   delta: number,
   practical: number | null,
+  posteriorSums: typeof posteriorSumsUnderPriors,
 ): ProgramSums[] {
   const thresholds = practical === null ? [delta] : [delta, practical];
-  const shippedSums = posteriorSumsUnderPriors(priors, shipped.y, shipped.s, thresholds);
-  const notShippedSums = posteriorSumsUnderPriors(priors, notShipped.y, notShipped.s, [delta]);
+  const shippedSums = posteriorSums(priors, shipped.y, shipped.s, thresholds);
+  const notShippedSums = posteriorSums(priors, notShipped.y, notShipped.s, [delta]);
   const count = shipped.y.length;
   return priors.map((_, b) => {
     const onShipped = shippedSums[b] as PosteriorSums;
@@ -371,6 +382,10 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
     throw new StatsInputError("extremeClaimMultiple", "above 1", extremeClaimMultiple);
   const criticalZ = normalQuantile(1 - alpha / 2);
   const prior = input.fit.prior;
+  const kernels: ReviewKernels = input.kernels ?? {
+    posteriorColumns,
+    posteriorSums: posteriorSumsUnderPriors,
+  };
   const bootstrapPriors = input.bootstrapPriors ?? [];
 
   // Who is left out, and why (one reason per test, in this order).
@@ -403,7 +418,7 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
   const byQuarter = new Map<string, ReturnType<typeof emptyMatrix>>();
   const realizedComparisons: Parameters<typeof predictiveCalibration>[0][number][] = [];
   const includedColumns = testColumns(included);
-  const includedPosteriors = posteriorColumns(prior, includedColumns.y, includedColumns.s, level);
+  const includedPosteriors = kernels.posteriorColumns(prior, includedColumns.y, includedColumns.s, level);
   const includedIndex = new Map(included.map((test, index) => [test, index]));
   // P(theta > delta) for every included test in one batch (only needed when delta is not 0).
   const includedAboveDelta =
@@ -507,6 +522,7 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
     notShippedColumns,
     delta,
     practical,
+    kernels.posteriorSums,
   );
   const main = allSums[0] as ProgramSums;
   const refits = allSums.slice(1, 1 + bootstrapPriors.length);

@@ -3,6 +3,7 @@
  * computation over inputs held in SharedArrayBuffers or copied with the message, so its result is
  * the same whichever thread computes it:
  * - "posteriors": posterior rows, chunk by chunk beside the calling thread (posterior-threads.ts);
+ * - "sums": program sums under many priors, chunk by chunk beside the calling thread (sums-threads.ts);
  * - "coarse-grid": the grid family's fit on a coarse grid (refit-threads.ts);
  * - "refits": bootstrap refits claimed one at a time from a shared counter (refit-threads.ts).
  */
@@ -11,6 +12,7 @@ import type { EffectPrior, PriorComponent } from "../stats/effect-prior.ts";
 import { type FamilyFit, type FitFamily, fitOnMatrix } from "../stats/fit-effect-prior.ts";
 import { likelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { emptyPosteriorColumns, writePosteriorRows } from "../stats/posterior.ts";
+import { posteriorSumsUnderPriors } from "../stats/posterior-sums.ts";
 import { thetaGridComponents } from "../stats/prior-grid.ts";
 import { type SharedChunks, workOnNextChunk } from "./shared-chunks.ts";
 
@@ -24,6 +26,16 @@ export type HelperJob =
       readonly s: Float64Array;
       /** One SharedArrayBuffer per posterior column, in emptyPosteriorColumns' order. */
       readonly columns: readonly SharedArrayBuffer[];
+      readonly chunks: SharedChunks;
+    }
+  | {
+      readonly kind: "sums";
+      readonly priors: readonly EffectPrior[];
+      readonly thresholds: readonly number[];
+      readonly y: Float64Array;
+      readonly s: Float64Array;
+      /** Over a SharedArrayBuffer: each chunk's sums (sums-threads.ts). */
+      readonly partials: Float64Array;
       readonly chunks: SharedChunks;
     }
   | {
@@ -62,6 +74,21 @@ export function runHelperJob(job: HelperJob, progress: (value: unknown) => void)
       while (workOnNextChunk(job.chunks, write));
       return null;
     }
+    case "sums": {
+      const write = (from: number, to: number) =>
+        writeChunkSums(
+          job.priors,
+          job.y,
+          job.s,
+          job.thresholds,
+          job.partials,
+          Math.floor(from / job.chunks.chunkRows),
+          from,
+          to,
+        );
+      while (workOnNextChunk(job.chunks, write));
+      return null;
+    }
     case "coarse-grid": {
       const grid = thetaGridComponents({ y: job.y, s: job.s }, job.points);
       return fitOnMatrix(likelihoodMatrix(job.y, job.s, grid), grid, "grid", job.nullWeight);
@@ -77,5 +104,28 @@ export function runHelperJob(job: HelperJob, progress: (value: unknown) => void)
         } satisfies RefitProgress);
       }
     }
+  }
+}
+
+/** The sums of one chunk's results under each prior into its slot of `partials` (per prior: mean, P(null), P(<0), P(>0), P(>t_j)). */
+export function writeChunkSums(
+  priors: readonly EffectPrior[],
+  y: Float64Array,
+  s: Float64Array,
+  thresholds: readonly number[],
+  partials: Float64Array,
+  chunk: number,
+  from: number,
+  to: number,
+): void {
+  const sums = posteriorSumsUnderPriors(priors, y.subarray(from, to), s.subarray(from, to), thresholds);
+  const stride = 4 + thresholds.length;
+  let offset = chunk * priors.length * stride;
+  for (const sum of sums) {
+    partials[offset++] = sum.mean;
+    partials[offset++] = sum.probNull;
+    partials[offset++] = sum.probNegative;
+    partials[offset++] = sum.probPositive;
+    for (const value of sum.probAbove) partials[offset++] = value;
   }
 }

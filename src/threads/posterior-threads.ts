@@ -7,6 +7,7 @@
  */
 import type { EffectPrior } from "../stats/effect-prior.ts";
 import {
+  defaultCredibleLevel,
   emptyPosteriorColumns,
   type PosteriorColumns,
   posteriorColumnCount,
@@ -15,7 +16,14 @@ import {
   writePosteriorRows,
 } from "../stats/posterior.ts";
 import { helperThread, sharedFloat64 } from "./helper-thread.ts";
-import { chunkRange, createSharedChunks, unwrittenChunks, workOnNextChunk } from "./shared-chunks.ts";
+import {
+  chunkRange,
+  createSharedChunks,
+  type SharedChunks,
+  unwrittenChunks,
+  workOnNextChunk,
+  writeChunksHere,
+} from "./shared-chunks.ts";
 
 /** Below this many rows one thread is faster than sharing (the helper's start costs ~0.15 s once). */
 export const threadedPosteriorRows = 50_000;
@@ -23,17 +31,21 @@ const chunkRows = 8192;
 
 const yieldToEventLoop = (): Promise<void> => new Promise((resolve) => setImmediate(resolve));
 
-export async function posteriorColumnsOnThreads(
+interface PosteriorJob {
+  readonly columns: PosteriorColumns;
+  readonly chunks: SharedChunks;
+  readonly write: (from: number, to: number) => void;
+  /** Settles when the helper is done with the job (never rejects); undefined without a helper. */
+  readonly helperDone: Promise<unknown> | undefined;
+}
+
+/** Validates, copies the inputs to shared memory and posts the job to the helper. */
+function startPosteriorJob(
   prior: EffectPrior,
   y: ArrayLike<number>,
   s: ArrayLike<number>,
   level: number,
-  options: {
-    /** Told how many of the chunks the helper thread wrote (0 when it was not up in time). */
-    readonly onShare?: (share: { readonly chunks: number; readonly byHelper: number }) => void;
-  } = {},
-): Promise<PosteriorColumns> {
-  if (y.length < threadedPosteriorRows) return posteriorColumns(prior, y, s, level);
+): PosteriorJob {
   validatePosteriorInputs(y, s, level);
   const rows = y.length;
   const sharedY = sharedFloat64(y);
@@ -42,20 +54,55 @@ export async function posteriorColumnsOnThreads(
   const columns = emptyPosteriorColumns(rows, level, buffers);
   const chunks = createSharedChunks(rows, chunkRows);
   // Posted at once: the helper takes it when it is up, and finds nothing left if this thread was faster.
-  const helperJob = helperThread()
+  const helperDone = helperThread()
     ?.run<null>({ kind: "posteriors", prior, level, y: sharedY, s: sharedS, columns: buffers, chunks })
     .catch(() => null);
+  const write = (from: number, to: number) => writePosteriorRows(prior, sharedY, sharedS, columns, from, to);
+  return { columns, chunks, write, helperDone };
+}
+
+type ShareReport = (share: { readonly chunks: number; readonly byHelper: number }) => void;
+
+/** The columns, yielding to the event loop between chunks (for servers and commands). */
+export async function posteriorColumnsOnThreads(
+  prior: EffectPrior,
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  level: number,
+  options: {
+    /** Told how many of the chunks the helper thread wrote (0 when it was not up in time). */
+    readonly onShare?: ShareReport;
+  } = {},
+): Promise<PosteriorColumns> {
+  if (y.length < threadedPosteriorRows) return posteriorColumns(prior, y, s, level);
+  const job = startPosteriorJob(prior, y, s, level);
   let writtenHere = 0;
   const write = (from: number, to: number) => {
-    writePosteriorRows(prior, sharedY, sharedS, columns, from, to);
+    job.write(from, to);
     writtenHere++;
   };
-  while (workOnNextChunk(chunks, write)) await yieldToEventLoop();
-  if (unwrittenChunks(chunks).length > 0) {
+  while (workOnNextChunk(job.chunks, write)) await yieldToEventLoop();
+  if (unwrittenChunks(job.chunks).length > 0) {
     // The helper holds chunks: wait for it (it finishes them, or fails and they are written here).
-    await helperJob;
-    for (const chunk of unwrittenChunks(chunks)) write(...chunkRange(chunks, chunk));
+    await job.helperDone;
+    for (const chunk of unwrittenChunks(job.chunks)) write(...chunkRange(job.chunks, chunk));
   }
-  options.onShare?.({ chunks: chunks.done.length, byHelper: chunks.done.length - writtenHere });
-  return columns;
+  options.onShare?.({ chunks: job.chunks.done.length, byHelper: job.chunks.done.length - writtenHere });
+  return job.columns;
+}
+
+/** How long the synchronous form waits for a chunk the helper holds before writing it itself. */
+const patienceMs = 2000;
+
+/** The same columns without yielding (for pure computations that take a posteriorColumns). */
+export function posteriorColumnsOnThreadsNow(
+  prior: EffectPrior,
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  level: number = defaultCredibleLevel,
+): PosteriorColumns {
+  if (y.length < threadedPosteriorRows) return posteriorColumns(prior, y, s, level);
+  const job = startPosteriorJob(prior, y, s, level);
+  writeChunksHere(job.chunks, job.write, patienceMs);
+  return job.columns;
 }

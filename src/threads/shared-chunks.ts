@@ -35,7 +35,32 @@ export function workOnNextChunk(chunks: SharedChunks, write: (from: number, to: 
   const [from, to] = chunkRange(chunks, chunk);
   write(from, to);
   Atomics.store(chunks.done, chunk, 1);
+  Atomics.notify(chunks.done, chunk);
   return true;
+}
+
+/**
+ * Synchronously, on the calling thread: claims and writes chunks until none are left, then, for
+ * each chunk another thread claimed and has not finished, waits up to `patienceMs` for it and
+ * writes it here if it is still unfinished (the same rows written twice get the same values, so a
+ * late or failed helper costs time, never a wrong result). Returns how many chunks were written here.
+ */
+export function writeChunksHere(
+  chunks: SharedChunks,
+  write: (from: number, to: number) => void,
+  patienceMs: number,
+): number {
+  let writtenHere = 0;
+  while (workOnNextChunk(chunks, write)) writtenHere++;
+  for (let chunk = 0; chunk < chunks.done.length; chunk++) {
+    if (Atomics.load(chunks.done, chunk) === 1) continue;
+    Atomics.wait(chunks.done, chunk, 0, patienceMs);
+    if (Atomics.load(chunks.done, chunk) === 1) continue;
+    write(...chunkRange(chunks, chunk));
+    Atomics.store(chunks.done, chunk, 1);
+    writtenHere++;
+  }
+  return writtenHere;
 }
 
 /** The chunks not marked written. */
