@@ -51,13 +51,13 @@ function expectCloseSums(actual: PosteriorSums[], expected: PosteriorSums[]): vo
   expect(actual.length).toBe(expected.length);
   actual.forEach((sum, b) => {
     const other = expected[b] as PosteriorSums;
-    const close = (a: number, e: number) =>
+    const close = (a: number, e: number): void =>
       expect(Math.abs(a - e)).toBeLessThanOrEqual(sumsTolerance * Math.max(1, Math.abs(e)));
     close(sum.mean, other.mean);
     close(sum.probNull, other.probNull);
     close(sum.probNegative, other.probNegative);
     close(sum.probPositive, other.probPositive);
-    sum.probAbove.forEach((value, j) => close(value, other.probAbove[j] as number));
+    for (const [j, value] of sum.probAbove.entries()) close(value, other.probAbove[j] as number);
   });
 }
 
