@@ -12,13 +12,15 @@ import {
   defaultNullWeight,
   type FamilyFit,
   type FitFamily,
+  familyComponents,
   fitEffectPrior,
   fitOnMatrix,
   type Observation,
   observationColumns,
   type PriorFit,
+  type SummaryData,
 } from "../stats/fit-effect-prior.ts";
-import { likelihoodMatrix } from "../stats/likelihood-matrix.ts";
+import { type LikelihoodMatrix, likelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { thetaGridComponents } from "../stats/prior-grid.ts";
 import { helperThread, sharedFloat64 } from "../threads/helper-thread.ts";
 import { coarseGridOnHelper, refitsOnThreads } from "../threads/refit-threads.ts";
@@ -66,6 +68,23 @@ function coarseGridFit(observations: readonly Observation[], nullWeight: number)
   return fitOnMatrix(likelihoodMatrix(data.y, data.s, grid), grid, "grid", nullWeight);
 }
 
+/**
+ * fitEffectPrior for one family (the same code path: familyComponents, likelihoodMatrix,
+ * fitOnMatrix), keeping its likelihood matrix over shared memory.
+ */
+function fitOnSharedMatrix(
+  data: SummaryData,
+  y: Float64Array,
+  s: Float64Array,
+  family: FitFamily,
+  nullWeight: number,
+): { fit: PriorFit; matrix: LikelihoodMatrix } {
+  const grid = familyComponents(data, family);
+  const matrix = likelihoodMatrix(y, s, grid, { shared: true });
+  const fit = { ...fitOnMatrix(matrix, grid, family, nullWeight), nullWeight, observationCount: y.length };
+  return { fit, matrix };
+}
+
 export async function fitReviewPriors(
   observations: readonly Observation[],
   settings: FitSettings,
@@ -90,12 +109,17 @@ export async function fitReviewPriors(
     (await gridFromHelper) ?? coarseGridFit(observations, nullWeight);
   let fit: PriorFit;
   let alternatives: FamilyFit[];
+  // With the helper, the chosen family's matrix is built once, over shared memory, and serves the
+  // refits on both threads.
+  let sharedMatrix: LikelihoodMatrix | null = null;
   if (settings.priorFamily === "auto" && coarseGrid) {
     // The rule of fitEffectPrior's "auto": the better of symmetric and skewed by log-likelihood.
-    const symmetric = fitEffectPrior(observations, { ...fitOptions, family: "symmetric" });
-    const skewed = fitEffectPrior(observations, { ...fitOptions, family: "skewed" });
-    fit = skewed.logLik > symmetric.logLik ? skewed : symmetric;
-    alternatives = [symmetric, skewed];
+    const symmetric = fitOnSharedMatrix(columns, y, s, "symmetric", nullWeight);
+    const skewed = fitOnSharedMatrix(columns, y, s, "skewed", nullWeight);
+    const chosen = skewed.fit.logLik > symmetric.fit.logLik ? skewed : symmetric;
+    fit = chosen.fit;
+    sharedMatrix = chosen.matrix;
+    alternatives = [symmetric.fit, skewed.fit];
   } else {
     const chosen = fitEffectPrior(observations, { ...fitOptions, family: settings.priorFamily });
     fit = chosen;
@@ -121,7 +145,14 @@ export async function fitReviewPriors(
   if (refitCount > 0) {
     progress(`refitting the prior to ${refitCount} bootstrap resamples`);
     bootstrapPriors = helper
-      ? await refitsOnThreads(helper, y, s, fit, refitCount, bootstrapSeed, onRefit)
+      ? await refitsOnThreads(
+          helper,
+          fit,
+          sharedMatrix ?? likelihoodMatrix(y, s, fit.grid, { shared: true }),
+          refitCount,
+          bootstrapSeed,
+          onRefit,
+        )
       : bootstrapPrior(observations, fit, {
           replicates: refitCount,
           seed: bootstrapSeed,

@@ -33,11 +33,19 @@ export function likelihoodMatrix(
   y: ArrayLike<number>,
   s: ArrayLike<number>,
   components: readonly PriorComponent[],
+  options: {
+    /** Over SharedArrayBuffers, so that another thread can read the matrix without a copy. */
+    readonly shared?: boolean;
+  } = {},
 ): LikelihoodMatrix {
   const rows = y.length;
   const columns = components.length;
-  const values = new Float64Array(rows * columns);
-  const logRowMax = new Float64Array(rows);
+  const allocate = (length: number): Float64Array =>
+    options.shared
+      ? new Float64Array(new SharedArrayBuffer(8 * Math.max(1, length)), 0, length)
+      : new Float64Array(length);
+  const values = allocate(rows * columns);
+  const logRowMax = allocate(rows);
   const fast = components.every((component) => component.kind === "point" || component.kind === "normal");
   const uniformFast = components.every(
     (component) =>

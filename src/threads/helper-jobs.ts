@@ -10,7 +10,7 @@
 import { type Resample, refitResample } from "../stats/bootstrap-prior.ts";
 import type { EffectPrior, PriorComponent } from "../stats/effect-prior.ts";
 import { type FamilyFit, type FitFamily, fitOnMatrix } from "../stats/fit-effect-prior.ts";
-import { likelihoodMatrix } from "../stats/likelihood-matrix.ts";
+import { type LikelihoodMatrix, likelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { emptyPosteriorColumns, writePosteriorRows } from "../stats/posterior.ts";
 import { posteriorSumsUnderPriors } from "../stats/posterior-sums.ts";
 import { thetaGridComponents } from "../stats/prior-grid.ts";
@@ -47,8 +47,8 @@ export type HelperJob =
     }
   | {
       readonly kind: "refits";
-      readonly y: Float64Array;
-      readonly s: Float64Array;
+      /** The fit's likelihood matrix, over SharedArrayBuffers. */
+      readonly matrix: LikelihoodMatrix;
       readonly grid: readonly PriorComponent[];
       readonly family: FitFamily;
       readonly nullWeight: number;
@@ -94,7 +94,7 @@ export function runHelperJob(job: HelperJob, progress: (value: unknown) => void)
       return fitOnMatrix(likelihoodMatrix(job.y, job.s, grid), grid, "grid", job.nullWeight);
     }
     case "refits": {
-      const matrix = likelihoodMatrix(job.y, job.s, job.grid);
+      const matrix = job.matrix;
       for (;;) {
         const index = Atomics.add(job.next, 0, 1);
         if (index >= job.resamples.length) return null;

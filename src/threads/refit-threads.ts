@@ -7,7 +7,7 @@
 import { drawResample, type Resample, refitResample } from "../stats/bootstrap-prior.ts";
 import type { EffectPrior } from "../stats/effect-prior.ts";
 import type { FamilyFit, PriorFit } from "../stats/fit-effect-prior.ts";
-import { likelihoodMatrix } from "../stats/likelihood-matrix.ts";
+import type { LikelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { createRandom } from "../stats/random.ts";
 import type { RefitProgress } from "./helper-jobs.ts";
 import type { HelperThread } from "./helper-thread.ts";
@@ -24,23 +24,23 @@ export function coarseGridOnHelper(
 }
 
 /**
- * The bootstrap refits of `fit`, shared between this thread and the helper (null: all here). The
+ * The bootstrap refits of `fit` on its likelihood matrix (over SharedArrayBuffers, so the helper
+ * reads it without a copy), shared between this thread and the helper (null: all here). The
  * resamples are drawn here first, in the order bootstrapPrior draws them from the same seed, so
  * the refitted priors are the ones bootstrapPrior gives, whichever thread fits each. Refits the
  * helper claimed but did not deliver (it failed) are done here.
  */
 export async function refitsOnThreads(
   helper: HelperThread | null,
-  y: Float64Array,
-  s: Float64Array,
   fit: PriorFit,
+  matrix: LikelihoodMatrix,
   replicates: number,
   seed: number,
   onProgress: (done: number, total: number) => void,
 ): Promise<EffectPrior[]> {
   const random = createRandom(seed);
-  const counts = new Int32Array(y.length);
-  const resamples = Array.from({ length: replicates }, () => drawResample(y.length, random, counts));
+  const counts = new Int32Array(matrix.rows);
+  const resamples = Array.from({ length: replicates }, () => drawResample(matrix.rows, random, counts));
   const next = new Int32Array(new SharedArrayBuffer(4));
   const priors: (EffectPrior | undefined)[] = new Array(replicates);
   let done = 0;
@@ -53,8 +53,7 @@ export async function refitsOnThreads(
     ?.run(
       {
         kind: "refits",
-        y,
-        s,
+        matrix,
         grid: fit.grid,
         family: fit.family,
         nullWeight: fit.nullWeight,
@@ -68,7 +67,6 @@ export async function refitsOnThreads(
       },
     )
     .catch(() => undefined);
-  const matrix = likelihoodMatrix(y, s, fit.grid);
   const yieldToEventLoop = (): Promise<void> => new Promise((resolve) => setImmediate(resolve));
   for (;;) {
     const index = Atomics.add(next, 0, 1);

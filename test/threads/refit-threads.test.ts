@@ -42,7 +42,8 @@ describe("fits on the helper thread", () => {
   it("shares bootstrap refits and returns bootstrapPrior's priors for the same seed", async () => {
     const fit = fitEffectPrior(observations, { family: "skewed" });
     const progress: number[] = [];
-    const shared = await refitsOnThreads(helperThread(), y, s, fit, 8, 77, (done) => progress.push(done));
+    const matrix = likelihoodMatrix(y, s, fit.grid, { shared: true });
+    const shared = await refitsOnThreads(helperThread(), fit, matrix, 8, 77, (done) => progress.push(done));
     const alone = bootstrapPrior(observations, fit, { replicates: 8, seed: 77 }).priors;
     expect(shared).toEqual(alone);
     expect(progress).toEqual([1, 2, 3, 4, 5, 6, 7, 8]);
@@ -52,7 +53,8 @@ describe("fits on the helper thread", () => {
     const stopped = helperThread() as HelperThread;
     await stopped.stop();
     const fit = fitEffectPrior(observations, { family: "symmetric" });
-    const shared = await refitsOnThreads(stopped, y, s, fit, 4, 5, () => undefined);
+    const matrix = likelihoodMatrix(y, s, fit.grid, { shared: true });
+    const shared = await refitsOnThreads(stopped, fit, matrix, 4, 5, () => undefined);
     expect(shared).toEqual(bootstrapPrior(observations, fit, { replicates: 4, seed: 5 }).priors);
     await expect(coarseGridOnHelper(stopped, y, s, 30, 10)).rejects.toThrow(/stopped/);
     // The next caller gets a new helper.
