@@ -14,7 +14,8 @@ import { StatsInputError } from "../../stats/errors.ts";
 import { defaultNullWeight, type FamilyFit, fitEffectPrior } from "../../stats/fit-effect-prior.ts";
 import { defaultCredibleLevel } from "../../stats/posterior.ts";
 import { summarizePrior } from "../../stats/prior-summary.ts";
-import { posteriorColumnsOnThreads } from "../../threads/posterior-threads.ts";
+import { helperThread } from "../../threads/helper-thread.ts";
+import { posteriorColumnsOnThreads, threadedPosteriorRows } from "../../threads/posterior-threads.ts";
 import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
@@ -233,6 +234,8 @@ export function fitRoutes({ db }: AppDeps): ApiRouter {
           ],
         );
       const observations = kept.map((row) => ({ y: row.y, s: row.s }));
+      // Many posteriors are shared with the helper thread: started now, it is up once the fit is done.
+      if (body.posteriors && observations.length >= threadedPosteriorRows) helperThread();
       try {
         const fit = fitEffectPrior(observations, { family: body.family, nullWeight: body.nullWeight });
         const summary = summarizePrior(fit.prior, { threshold: body.threshold });

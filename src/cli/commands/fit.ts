@@ -140,7 +140,7 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
   if ("issues" in read) return fail(1, `${file}: ${read.message}`, read.issues);
   const observations = read.observations;
   // A large file's posteriors are shared with a helper thread, started now so that it is up by then.
-  if (values.posteriors !== undefined && observations.length >= threadedPosteriorRows) void helperThread();
+  if (values.posteriors !== undefined && observations.length >= threadedPosteriorRows) helperThread();
 
   let fit: ReturnType<typeof fitEffectPrior>;
   let bootstrap: PriorBootstrap | undefined;
