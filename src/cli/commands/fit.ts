@@ -2,7 +2,7 @@
  * `plumbline fit FILE.csv`: the empirical-Bayes fit of the distribution of true effects for any
  * file of results (columns lift,se or y,s), statelessly: no database. statistics.md section 5.
  */
-import { readFileSync, writeFileSync } from "node:fs";
+import { closeSync, openSync, readFileSync, writeSync } from "node:fs";
 import { parseArgs } from "node:util";
 import { parse } from "csv-parse/sync";
 import { type BootstrapInterval, bootstrapPrior, type PriorBootstrap } from "../../stats/bootstrap-prior.ts";
@@ -173,25 +173,23 @@ export async function run(args: string[], io: CommandIo): Promise<number> {
       observations.map((observation) => observation.s),
       level as number,
     );
-    const lines = ["posterior_mean,posterior_sd,lower,upper,prob_positive,prob_null,prob_negative,lfsr"];
-    for (let i = 0; i < observations.length; i++) {
-      lines.push(
-        [
-          columns.mean[i],
-          columns.sd[i],
-          columns.lower[i],
-          columns.upper[i],
-          columns.probPositive[i],
-          columns.probNull[i],
-          columns.probNegative[i],
-          columns.lfsr[i],
-        ].join(","),
-      );
-    }
+    // Written a block of rows at a time: one string of a million rows would hold about 150 MB.
+    let file: number | null = null;
     try {
-      writeFileSync(values.posteriors as string, `${lines.join("\n")}\n`);
+      file = openSync(values.posteriors as string, "w");
+      writeSync(file, "posterior_mean,posterior_sd,lower,upper,prob_positive,prob_null,prob_negative,lfsr\n");
+      const blockRows = 10_000;
+      for (let from = 0; from < observations.length; from += blockRows) {
+        let block = "";
+        for (let i = from; i < Math.min(observations.length, from + blockRows); i++) {
+          block += `${columns.mean[i]},${columns.sd[i]},${columns.lower[i]},${columns.upper[i]},${columns.probPositive[i]},${columns.probNull[i]},${columns.probNegative[i]},${columns.lfsr[i]}\n`;
+        }
+        writeSync(file, block);
+      }
     } catch (error) {
       return fail(1, `cannot write ${values.posteriors}: ${(error as Error).message}`);
+    } finally {
+      if (file !== null) closeSync(file);
     }
   }
   const document = {
