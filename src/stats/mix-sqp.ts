@@ -363,19 +363,17 @@ function accumulateHessian(
   const b = new Float64Array(size);
   const c = new Float64Array(size);
   const d = new Float64Array(size);
-  const load = (buffer: Float64Array, r: number): void => {
-    const factor = Math.sqrt(rowWeights[r] as number) / (fitted[r] as number);
-    const offset = (rows[r] as number) * columns;
-    for (let j = 0; j < size; j++)
-      buffer[j] = (values[offset + (workingIndex[j] as number)] as number) * factor;
-  };
   const count = rows.length;
-  let r = 0;
-  for (; r + 3 < count; r += 4) {
-    load(a, r);
-    load(b, r + 1);
-    load(c, r + 2);
-    load(d, r + 3);
+  // The last block takes the remaining rows and zeros (adding 0 leaves every entry's bits as a
+  // row-by-row sum would): one loop, so that its optimized code never meets an unvisited tail.
+  for (let r = 0; r < count; r += 4) {
+    loadScaledRow(a, values, columns, rows, rowWeights, fitted, workingIndex, r);
+    if (r + 1 < count) loadScaledRow(b, values, columns, rows, rowWeights, fitted, workingIndex, r + 1);
+    else b.fill(0);
+    if (r + 2 < count) loadScaledRow(c, values, columns, rows, rowWeights, fitted, workingIndex, r + 2);
+    else c.fill(0);
+    if (r + 3 < count) loadScaledRow(d, values, columns, rows, rowWeights, fitted, workingIndex, r + 3);
+    else d.fill(0);
     for (let j = 0; j < size; j++) {
       const aj = a[j] as number;
       const bj = b[j] as number;
@@ -392,17 +390,28 @@ function accumulateHessian(
           dj * (d[m] as number);
     }
   }
-  for (; r < count; r++) {
-    load(a, r);
-    for (let j = 0; j < size; j++) {
-      const aj = a[j] as number;
-      if (aj === 0) continue;
-      const base = j * size;
-      for (let m = j; m < size; m++)
-        hessian[base + m] = (hessian[base + m] as number) + aj * (a[m] as number);
-    }
-  }
   return hessian;
+}
+
+/**
+ * Row r over the working columns, scaled by sqrt(a_r) / u_r, into buffer. A top-level function:
+ * a closure made per call would be a new call target each time, and its caller's optimized code
+ * would be thrown away on every call.
+ */
+function loadScaledRow(
+  buffer: Float64Array,
+  values: Float64Array,
+  columns: number,
+  rows: Int32Array,
+  rowWeights: Float64Array,
+  fitted: Float64Array,
+  workingIndex: Int32Array,
+  r: number,
+): void {
+  const factor = Math.sqrt(rowWeights[r] as number) / (fitted[r] as number);
+  const offset = (rows[r] as number) * columns;
+  for (let j = 0; j < buffer.length; j++)
+    buffer[j] = (values[offset + (workingIndex[j] as number)] as number) * factor;
 }
 
 /** direction_r = sum_j L_r,C_j step_j. */
