@@ -318,6 +318,13 @@ function solve(
       if (!computeFitted(values, columns, rows, x, fitted)) break;
       objective = objectiveAt(fitted, rowWeights, penalty, x, totalWeight, 0, direction);
     }
+    // A row left almost unexplained (its best columns lost their weight) stalls the quadratic
+    // model: the step it asks for is below the zeroing threshold. Give its best column the weight
+    // the optimum gives at least (rescueRows); that lowers the objective, so the descent holds.
+    if (rescueRows(values, columns, rows, rowWeights, totalWeight, x, fitted)) {
+      if (!computeFitted(values, columns, rows, x, fitted)) break;
+      objective = objectiveAt(fitted, rowWeights, penalty, x, totalWeight, 0, direction);
+    }
   }
   let total = 0;
   for (let k = 0; k < columns; k++) total += x[k] as number;
@@ -469,6 +476,48 @@ function repairStart(
     sum += x[k] as number;
   }
   for (let k = 0; k < columns; k++) x[k] = (x[k] as number) / sum;
+  return true;
+}
+
+// At the optimum every row has u_r >= a_r / A (the optimality condition for its best column, whose
+// scaled likelihood is 1); a row below this share of that floor is far from it.
+const rescuedRowShare = 1e-3;
+
+/**
+ * For rows with u_r < rescuedRowShare a_r / A: adds a_r / A to the weight of each such row's best
+ * column and rescales the weights to their former sum. Each rescued row's log u_r rises by more
+ * than log(1 / rescuedRowShare) ~ 6.9 while every row loses less than its a_r / A share, so the
+ * objective falls. It never fires near the optimum. Returns whether any row was rescued.
+ */
+function rescueRows(
+  values: Float64Array,
+  columns: number,
+  rows: Int32Array,
+  rowWeights: Float64Array,
+  totalWeight: number,
+  x: Float64Array,
+  fitted: Float64Array,
+): boolean {
+  let added: Float64Array | null = null;
+  for (let r = 0; r < rows.length; r++) {
+    const floor = (rowWeights[r] as number) / totalWeight;
+    if ((fitted[r] as number) >= rescuedRowShare * floor) continue;
+    const offset = (rows[r] as number) * columns;
+    let best = 0;
+    for (let k = 1; k < columns; k++)
+      if ((values[offset + k] as number) > (values[offset + best] as number)) best = k;
+    added ??= new Float64Array(columns);
+    added[best] = (added[best] as number) + floor;
+  }
+  if (added === null) return false;
+  let before = 0;
+  let after = 0;
+  for (let k = 0; k < columns; k++) {
+    before += x[k] as number;
+    x[k] = (x[k] as number) + (added[k] as number);
+    after += x[k] as number;
+  }
+  for (let k = 0; k < columns; k++) x[k] = ((x[k] as number) * before) / after;
   return true;
 }
 

@@ -26,4 +26,20 @@ describe("mix-SQP reaches the optimality condition without running to its cap", 
     // Converging runs take tens of iterations; the cap is 500.
     expect(fit.iterations).toBeLessThan(100);
   });
+
+  // Regression: on a fine grid of point masses a row whose best points lost their weight was left
+  // with u_r ~ 1e-16; the step it asked for fell below the zeroing threshold, and the grid fit of
+  // 20,000 or more results stopped at its cap with max d_k - 1 ~ 4e11 (the optimum has
+  // u_r >= 1/N for every row, so such a row is far from it; mix-sqp.ts rescueRows).
+  it("fits the grid family of 20,000 and 30,001 seeded results to max d_k <= 1 + 1e-8", () => {
+    for (const [count, seed] of [
+      [20_000, 9],
+      [30_001, 3],
+    ] as const) {
+      const fit = fitEffectPrior(portfolio(count, seed), { family: "grid" });
+      expect(fit.converged).toBe(true);
+      expect(fit.optimalityGap).toBeLessThanOrEqual(1e-8);
+      expect(fit.iterations).toBeLessThan(100);
+    }
+  }, 60_000);
 });
