@@ -10,7 +10,7 @@
  * f(x) = -(1/A)(sum_i a_i log (Lx)_i + sum_k c_k log x_k) + sum_k x_k, A = sum a + sum c, whose
  * minimiser lies on the simplex. Each iteration solves the quadratic model of f at x subject to
  * x >= 0 by a primal active-set method (Nocedal & Wright 2006, section 16.5) and takes a
- * backtracking (Armijo) line search step. Two departures for speed, neither changing the optimum:
+ * backtracking (Armijo) line search step. Departures for speed and robustness, none changing the optimum:
  * - the Hessian is formed only over the working columns (positive weight, plus the columns whose
  *   gradient most asks for weight, at most max(10, support) of them), so that its cost falls from
  *   N K^2 / 2 to N |C|^2 / 2 once the solution turns sparse; a column left out enters as soon as
@@ -21,7 +21,11 @@
  *   subsample (20,000 rows, itself warm-started from a 5,000-row one) is solved first and
  *   warm-starts the full problem;
  * - an accepted step updates the fitted values as u + alpha L p, recomputed only when a weight
- *   is clamped or zeroed.
+ *   is clamped or zeroed;
+ * - after each step, a row left with u_r below 1e-3 of the floor a_r / A that the optimum
+ *   guarantees gets that weight on its best column (rescueRows): the quadratic model of such a
+ *   row asks for a step below the zeroing threshold, which would otherwise stall the fit of a fine
+ *   grid; the move lowers f, so the method stays a descent method.
  * Convergence: max_k d_k <= 1 + tolerance, d_k = (1/A)(sum_i a_i L_ik/(Lw)_i + c_k/w_k) at
  * w = x / sum(x); d_k <= 1 for all k are the KKT conditions of the concave problem.
  * Cost: O(N K) per iteration for the gradient plus O(N |C|^2) for the Hessian; memory O(N + K^2)
