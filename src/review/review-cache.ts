@@ -85,5 +85,19 @@ export async function writeCache(
         .values({ cacheKey: entry.cacheKey, workspaceId, kind: entry.kind, value })
         .onConflictDoUpdate({ target: computationCache.cacheKey, set: { value, kind: entry.kind } });
     }
+    if (entries.some((entry) => entry.kind === reviewTestsCacheKind)) {
+      // Per-test tables are large (about 500 bytes a test) and cheap to recompute from a cached
+      // summary's fits: only the workspace's most recently written few are kept.
+      await tx.run(sql`
+        delete from ${computationCache}
+        where ${computationCache.workspaceId} = ${workspaceId} and ${computationCache.kind} = ${reviewTestsCacheKind}
+          and rowid not in (
+            select rowid from ${computationCache}
+            where ${computationCache.workspaceId} = ${workspaceId} and ${computationCache.kind} = ${reviewTestsCacheKind}
+            order by rowid desc limit ${keptTestTables})`);
+    }
   });
 }
+
+/** Per-test tables kept per workspace (the newest written). */
+export const keptTestTables = 4;
