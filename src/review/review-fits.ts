@@ -62,8 +62,7 @@ export interface ReviewFits {
 }
 
 /** The grid family on a coarser grid of equally spaced points (the nonparametric MLE's support). */
-function coarseGridFit(observations: readonly Observation[], nullWeight: number): FamilyFit {
-  const data = observationColumns(observations);
+function coarseGridFit(data: SummaryData, nullWeight: number): FamilyFit {
   const grid = thetaGridComponents(data, largeHistoryGridPoints);
   return fitOnMatrix(likelihoodMatrix(data.y, data.s, grid), grid, "grid", nullWeight);
 }
@@ -106,7 +105,7 @@ export async function fitReviewPriors(
       ? coarseGridOnHelper(helper, y, s, largeHistoryGridPoints, nullWeight).catch(() => null)
       : null;
   const coarseGridAlternative = async (): Promise<FamilyFit> =>
-    (await gridFromHelper) ?? coarseGridFit(observations, nullWeight);
+    (await gridFromHelper) ?? coarseGridFit(columns, nullWeight);
   let fit: PriorFit;
   let alternatives: FamilyFit[];
   // With the helper, the chosen family's matrix is built once, over shared memory, and serves the

@@ -115,12 +115,9 @@ export async function runReview(
   const settings = resolveReviewSettings(request);
   const progress = options.onProgress ?? (() => undefined);
   const dataVersion = await storedDataVersion(db, workspaceId);
-  // Whether the refits were asked for is part of the key: a default is lowered for a large history.
-  const cacheKey = reviewCacheKey(
-    workspaceId,
-    { settings, bootstrapAsked: request.bootstrap !== undefined },
-    dataVersion,
-  );
+  // Whether the refits were asked for is part of the keys: a default is lowered for a large history.
+  const bootstrapAsked = request.bootstrap !== undefined;
+  const cacheKey = reviewCacheKey(workspaceId, { settings, bootstrapAsked }, dataVersion);
   // cache_key is the table's primary key: the table gets its own key.
   const testsCacheKey = `${cacheKey}:tests`;
   const cachedSummary = await readCache<ReviewSummary>(db, cacheKey, reviewCacheKind);
@@ -146,7 +143,7 @@ export async function runReview(
     nullWeight: settings.nullWeight,
     priorFamily: settings.priorFamily,
     bootstrap: settings.bootstrap,
-    bootstrapAsked: request.bootstrap !== undefined,
+    bootstrapAsked,
     seed: settings.seed,
   };
   const fitsKey = reviewFitsCacheKey(workspaceId, data.fingerprint, fitSettings);

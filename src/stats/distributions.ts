@@ -188,6 +188,31 @@ export function normalCdfAndDensity(x: number, out: Float64Array): void {
 }
 
 /**
+ * For each point p_j and one result (y, s): z_j = (p_j - y) / s and normalTails(z_j) into z,
+ * below, above and, when given, density; `scratch` holds 3 values. The likelihood matrix and the
+ * program sums take a uniform component's figures from these values at its bounds.
+ */
+export function normalTailsAtPoints(
+  points: ArrayLike<number>,
+  y: number,
+  s: number,
+  z: Float64Array,
+  below: Float64Array,
+  above: Float64Array,
+  density: Float64Array | null,
+  scratch: Float64Array,
+): void {
+  for (let p = 0; p < points.length; p++) {
+    const standardized = ((points[p] as number) - y) / s;
+    z[p] = standardized;
+    normalTails(standardized, scratch);
+    below[p] = scratch[0] as number;
+    above[p] = scratch[1] as number;
+    if (density) density[p] = scratch[2] as number;
+  }
+}
+
+/**
  * [Phi(z), 1 - Phi(z), phi(z)] into out[0..2], the smaller tail to full relative accuracy and the
  * larger as its complement (for differences of tails that must not cancel: normalIntervalMass).
  */

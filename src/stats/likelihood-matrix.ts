@@ -13,7 +13,7 @@
  */
 import { componentLogLikelihood } from "./component-likelihood.ts";
 import { DistinctValues } from "./distinct-values.ts";
-import { normalIntervalMass, normalPdf, normalTails } from "./distributions.ts";
+import { normalIntervalMass, normalPdf, normalTailsAtPoints } from "./distributions.ts";
 import type { PriorComponent } from "./effect-prior.ts";
 
 export interface LikelihoodMatrix {
@@ -131,13 +131,7 @@ function fillPointsAndUniforms(
   for (let i = 0; i < y.length; i++) {
     const yi = y[i] as number;
     const si = s[i] as number;
-    for (let b = 0; b < boundValues.length; b++) {
-      const z = ((boundValues[b] as number) - yi) / si;
-      standardized[b] = z;
-      normalTails(z, tails);
-      below[b] = tails[0] as number;
-      above[b] = tails[1] as number;
-    }
+    normalTailsAtPoints(boundValues, yi, si, standardized, below, above, null, tails);
     const offset = i * columns;
     let maximum = 0;
     for (let k = 0; k < columns; k++) {

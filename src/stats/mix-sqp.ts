@@ -379,12 +379,9 @@ function accumulateHessian(
   // row-by-row sum would): one loop, so that its optimized code never meets an unvisited tail.
   for (let r = 0; r < count; r += 4) {
     loadScaledRow(a, values, columns, rows, rowWeights, fitted, workingIndex, r);
-    if (r + 1 < count) loadScaledRow(b, values, columns, rows, rowWeights, fitted, workingIndex, r + 1);
-    else b.fill(0);
-    if (r + 2 < count) loadScaledRow(c, values, columns, rows, rowWeights, fitted, workingIndex, r + 2);
-    else c.fill(0);
-    if (r + 3 < count) loadScaledRow(d, values, columns, rows, rowWeights, fitted, workingIndex, r + 3);
-    else d.fill(0);
+    loadScaledRow(b, values, columns, rows, rowWeights, fitted, workingIndex, r + 1);
+    loadScaledRow(c, values, columns, rows, rowWeights, fitted, workingIndex, r + 2);
+    loadScaledRow(d, values, columns, rows, rowWeights, fitted, workingIndex, r + 3);
     for (let j = 0; j < size; j++) {
       const aj = a[j] as number;
       const bj = b[j] as number;
@@ -405,7 +402,8 @@ function accumulateHessian(
 }
 
 /**
- * Row r over the working columns, scaled by sqrt(a_r) / u_r, into buffer. A top-level function:
+ * Row r over the working columns, scaled by sqrt(a_r) / u_r, into buffer (zeros past the last
+ * row). A top-level function:
  * a closure made per call would be a new call target each time, and its caller's optimized code
  * would be thrown away on every call.
  */
@@ -419,6 +417,10 @@ function loadScaledRow(
   workingIndex: Int32Array,
   r: number,
 ): void {
+  if (r >= rows.length) {
+    buffer.fill(0);
+    return;
+  }
   const factor = Math.sqrt(rowWeights[r] as number) / (fitted[r] as number);
   const offset = (rows[r] as number) * columns;
   for (let j = 0; j < buffer.length; j++)

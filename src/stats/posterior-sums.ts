@@ -19,7 +19,7 @@
  */
 import { componentLogLikelihood } from "./component-likelihood.ts";
 import { DistinctValues } from "./distinct-values.ts";
-import { normalIntervalMass, normalTails } from "./distributions.ts";
+import { normalIntervalMass, normalTailsAtPoints } from "./distributions.ts";
 import type { EffectPrior, PriorComponent } from "./effect-prior.ts";
 import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
 import {
@@ -281,14 +281,7 @@ function uniformBounds(components: readonly PriorComponent[], thresholds: readon
     /** log-likelihood of the component last summarized. */
     logLikelihood: 0,
     evaluate(y: number, s: number): void {
-      for (let p = 0; p < values.length; p++) {
-        const standardized = ((values[p] as number) - y) / s;
-        z[p] = standardized;
-        normalTails(standardized, tails);
-        below[p] = tails[0] as number;
-        above[p] = tails[1] as number;
-        density[p] = tails[2] as number;
-      }
+      normalTailsAtPoints(values, y, s, z, below, above, density, tails);
     },
     /** Fills `out` for uniform component c; false when its mass is too small for linear space. */
     summarize(c: number, y: number, s: number, out: ComponentSummary): boolean {

@@ -200,29 +200,42 @@ export function validatePosteriorInputs(y: ArrayLike<number>, s: ArrayLike<numbe
   }
 }
 
+/** The columns of PosteriorColumns, in the order of the buffers given to emptyPosteriorColumns. */
+export const posteriorColumnNames = [
+  "mean",
+  "sd",
+  "lower",
+  "upper",
+  "probPositive",
+  "probNull",
+  "probNegative",
+  "lfsr",
+] as const;
+
+export const posteriorColumnCount = posteriorColumnNames.length;
+
 /** Columns for `count` posteriors, over the given buffers (shared between threads) or new ones. */
 export function emptyPosteriorColumns(
   count: number,
   level: number,
   buffers?: readonly ArrayBufferLike[],
 ): PosteriorColumns {
-  const column = (index: number): Float64Array =>
-    buffers ? new Float64Array(buffers[index] as ArrayBufferLike, 0, count) : new Float64Array(count);
+  const column = (name: (typeof posteriorColumnNames)[number]): Float64Array => {
+    const buffer = buffers?.[posteriorColumnNames.indexOf(name)];
+    return buffer ? new Float64Array(buffer, 0, count) : new Float64Array(count);
+  };
   return {
     level,
-    mean: column(0),
-    sd: column(1),
-    lower: column(2),
-    upper: column(3),
-    probPositive: column(4),
-    probNull: column(5),
-    probNegative: column(6),
-    lfsr: column(7),
+    mean: column("mean"),
+    sd: column("sd"),
+    lower: column("lower"),
+    upper: column("upper"),
+    probPositive: column("probPositive"),
+    probNull: column("probNull"),
+    probNegative: column("probNegative"),
+    lfsr: column("lfsr"),
   };
 }
-
-/** The number of columns of PosteriorColumns (for buffers given to emptyPosteriorColumns). */
-export const posteriorColumnCount = 8;
 
 /**
  * Writes the posteriors of rows [from, to) into `columns` at the same rows, at `columns.level`.

@@ -12,7 +12,7 @@ import type { EffectPrior, PriorComponent } from "../stats/effect-prior.ts";
 import { type FamilyFit, type FitFamily, fitOnMatrix } from "../stats/fit-effect-prior.ts";
 import { type LikelihoodMatrix, likelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { emptyPosteriorColumns, writePosteriorRows } from "../stats/posterior.ts";
-import { posteriorSumsUnderPriors } from "../stats/posterior-sums.ts";
+import { type PosteriorSums, posteriorSumsUnderPriors } from "../stats/posterior-sums.ts";
 import { thetaGridComponents } from "../stats/prior-grid.ts";
 import { type SharedChunks, workOnNextChunk } from "./shared-chunks.ts";
 
@@ -75,17 +75,8 @@ export function runHelperJob(job: HelperJob, progress: (value: unknown) => void)
       return null;
     }
     case "sums": {
-      const write = (from: number, to: number) =>
-        writeChunkSums(
-          job.priors,
-          job.y,
-          job.s,
-          job.thresholds,
-          job.partials,
-          Math.floor(from / job.chunks.chunkRows),
-          from,
-          to,
-        );
+      const write = (from: number, to: number, chunk: number) =>
+        writeChunkSums(job.priors, job.y, job.s, job.thresholds, job.partials, chunk, from, to);
       while (workOnNextChunk(job.chunks, write));
       return null;
     }
@@ -107,7 +98,16 @@ export function runHelperJob(job: HelperJob, progress: (value: unknown) => void)
   }
 }
 
-/** The sums of one chunk's results under each prior into its slot of `partials` (per prior: mean, P(null), P(<0), P(>0), P(>t_j)). */
+/**
+ * The chunks' sums in one shared array: per chunk, per prior, `4 + thresholds` figures (mean,
+ * P(null), P(theta < 0), P(theta > 0), P(theta > t_j)). Written by writeChunkSums on either thread,
+ * added up in chunk order by addChunkSums.
+ */
+export function chunkSumsStride(thresholdCount: number): number {
+  return 4 + thresholdCount;
+}
+
+/** The sums of one chunk's results under each prior, into that chunk's slot of `partials`. */
 export function writeChunkSums(
   priors: readonly EffectPrior[],
   y: Float64Array,
@@ -119,8 +119,7 @@ export function writeChunkSums(
   to: number,
 ): void {
   const sums = posteriorSumsUnderPriors(priors, y.subarray(from, to), s.subarray(from, to), thresholds);
-  const stride = 4 + thresholds.length;
-  let offset = chunk * priors.length * stride;
+  let offset = chunk * priors.length * chunkSumsStride(thresholds.length);
   for (const sum of sums) {
     partials[offset++] = sum.mean;
     partials[offset++] = sum.probNull;
@@ -128,4 +127,27 @@ export function writeChunkSums(
     partials[offset++] = sum.probPositive;
     for (const value of sum.probAbove) partials[offset++] = value;
   }
+}
+
+/** Prior b's sums over every chunk, added in chunk order. */
+export function addChunkSums(
+  partials: Float64Array,
+  chunkCount: number,
+  priorCount: number,
+  thresholdCount: number,
+  b: number,
+): PosteriorSums {
+  const stride = chunkSumsStride(thresholdCount);
+  const total = new Float64Array(stride);
+  for (let chunk = 0; chunk < chunkCount; chunk++) {
+    const offset = (chunk * priorCount + b) * stride;
+    for (let f = 0; f < stride; f++) total[f] = (total[f] as number) + (partials[offset + f] as number);
+  }
+  return {
+    mean: total[0] as number,
+    probNull: total[1] as number,
+    probNegative: total[2] as number,
+    probPositive: total[3] as number,
+    probAbove: Array.from(total.subarray(4)),
+  };
 }

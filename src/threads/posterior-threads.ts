@@ -23,13 +23,11 @@ import {
   unwrittenChunks,
   workOnNextChunk,
   writeChunksHere,
+  yieldToEventLoop,
 } from "./shared-chunks.ts";
 
 /** Below this many rows one thread is faster than sharing (the helper's start costs ~0.15 s once). */
 export const threadedPosteriorRows = 50_000;
-const chunkRows = 8192;
-
-const yieldToEventLoop = (): Promise<void> => new Promise((resolve) => setImmediate(resolve));
 
 interface PosteriorJob {
   readonly columns: PosteriorColumns;
@@ -52,7 +50,7 @@ function startPosteriorJob(
   const sharedS = sharedFloat64(s);
   const buffers = Array.from({ length: posteriorColumnCount }, () => new SharedArrayBuffer(8 * rows));
   const columns = emptyPosteriorColumns(rows, level, buffers);
-  const chunks = createSharedChunks(rows, chunkRows);
+  const chunks = createSharedChunks(rows);
   // Posted at once: the helper takes it when it is up, and finds nothing left if this thread was faster.
   const helperDone = helperThread()
     ?.run<null>({ kind: "posteriors", prior, level, y: sharedY, s: sharedS, columns: buffers, chunks })
@@ -91,9 +89,6 @@ export async function posteriorColumnsOnThreads(
   return job.columns;
 }
 
-/** How long the synchronous form waits for a chunk the helper holds before writing it itself. */
-const patienceMs = 2000;
-
 /** The same columns without yielding (for pure computations that take a posteriorColumns). */
 export function posteriorColumnsOnThreadsNow(
   prior: EffectPrior,
@@ -103,6 +98,6 @@ export function posteriorColumnsOnThreadsNow(
 ): PosteriorColumns {
   if (y.length < threadedPosteriorRows) return posteriorColumns(prior, y, s, level);
   const job = startPosteriorJob(prior, y, s, level);
-  writeChunksHere(job.chunks, job.write, patienceMs);
+  writeChunksHere(job.chunks, job.write);
   return job.columns;
 }

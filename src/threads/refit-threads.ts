@@ -11,6 +11,7 @@ import type { LikelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { createRandom } from "../stats/random.ts";
 import type { RefitProgress } from "./helper-jobs.ts";
 import type { HelperThread } from "./helper-thread.ts";
+import { yieldToEventLoop } from "./shared-chunks.ts";
 
 /** The grid family fitted on `points` equally spaced grid points, on the helper. */
 export function coarseGridOnHelper(
@@ -67,7 +68,6 @@ export async function refitsOnThreads(
       },
     )
     .catch(() => undefined);
-  const yieldToEventLoop = (): Promise<void> => new Promise((resolve) => setImmediate(resolve));
   for (;;) {
     const index = Atomics.add(next, 0, 1);
     if (index >= replicates) break;

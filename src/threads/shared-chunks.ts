@@ -12,7 +12,18 @@ export interface SharedChunks {
   readonly done: Int32Array;
 }
 
-export function createSharedChunks(rows: number, chunkRows: number): SharedChunks {
+/** Rows a chunk (about 10 ms of posteriors or sums: small enough to balance two threads). */
+export const defaultChunkRows = 8192;
+/**
+ * How long a synchronous caller waits for a chunk the helper holds before writing it itself (a
+ * chunk takes the helper about 0.01 to 0.1 s; only a stopped helper makes it wait this long).
+ */
+export const helperPatienceMs = 2000;
+
+/** Writes rows [from, to), chunk number `chunk`. */
+export type ChunkWriter = (from: number, to: number, chunk: number) => void;
+
+export function createSharedChunks(rows: number, chunkRows: number = defaultChunkRows): SharedChunks {
   const count = Math.ceil(rows / chunkRows);
   return {
     rows,
@@ -29,11 +40,11 @@ export function chunkRange(chunks: SharedChunks, chunk: number): [number, number
 }
 
 /** Claims one chunk and writes it; false when none is left. */
-export function workOnNextChunk(chunks: SharedChunks, write: (from: number, to: number) => void): boolean {
+export function workOnNextChunk(chunks: SharedChunks, write: ChunkWriter): boolean {
   const chunk = Atomics.add(chunks.next, 0, 1);
   if (chunk >= chunks.done.length) return false;
   const [from, to] = chunkRange(chunks, chunk);
-  write(from, to);
+  write(from, to, chunk);
   Atomics.store(chunks.done, chunk, 1);
   Atomics.notify(chunks.done, chunk);
   return true;
@@ -47,8 +58,8 @@ export function workOnNextChunk(chunks: SharedChunks, write: (from: number, to: 
  */
 export function writeChunksHere(
   chunks: SharedChunks,
-  write: (from: number, to: number) => void,
-  patienceMs: number,
+  write: ChunkWriter,
+  patienceMs: number = helperPatienceMs,
 ): number {
   let writtenHere = 0;
   while (workOnNextChunk(chunks, write)) writtenHere++;
@@ -56,7 +67,7 @@ export function writeChunksHere(
     if (Atomics.load(chunks.done, chunk) === 1) continue;
     Atomics.wait(chunks.done, chunk, 0, patienceMs);
     if (Atomics.load(chunks.done, chunk) === 1) continue;
-    write(...chunkRange(chunks, chunk));
+    write(...chunkRange(chunks, chunk), chunk);
     Atomics.store(chunks.done, chunk, 1);
     writtenHere++;
   }
@@ -69,4 +80,9 @@ export function unwrittenChunks(chunks: SharedChunks): number[] {
   for (let chunk = 0; chunk < chunks.done.length; chunk++)
     if (Atomics.load(chunks.done, chunk) !== 1) missing.push(chunk);
   return missing;
+}
+
+/** A turn of the event loop (between chunks of an awaited job, so that other work gets served). */
+export function yieldToEventLoop(): Promise<void> {
+  return new Promise((resolve) => setImmediate(resolve));
 }

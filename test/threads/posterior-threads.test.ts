@@ -6,7 +6,7 @@
 import { afterAll, describe, expect, it } from "vitest";
 import type { EffectPrior } from "../../src/stats/effect-prior.ts";
 import { StatsInputError } from "../../src/stats/errors.ts";
-import { type PosteriorColumns, posteriorColumns } from "../../src/stats/posterior.ts";
+import { type PosteriorColumns, posteriorColumnNames, posteriorColumns } from "../../src/stats/posterior.ts";
 import { createRandom } from "../../src/stats/random.ts";
 import { helperThread } from "../../src/threads/helper-thread.ts";
 import { posteriorColumnsOnThreads, threadedPosteriorRows } from "../../src/threads/posterior-threads.ts";
@@ -33,20 +33,10 @@ for (let i = 0; i < rows; i++) {
   y[i] = (random.uniform() < 0.6 ? 0 : 0.02 * random.normal()) + (s[i] as number) * random.normal();
 }
 const reference = posteriorColumns(prior, y, s, 0.9);
-const columnNames = [
-  "mean",
-  "sd",
-  "lower",
-  "upper",
-  "probPositive",
-  "probNull",
-  "probNegative",
-  "lfsr",
-] as const;
 
 function differingEntries(a: PosteriorColumns, b: PosteriorColumns): number {
   let differing = 0;
-  for (const name of columnNames)
+  for (const name of posteriorColumnNames)
     for (let i = 0; i < rows; i++) if (!Object.is(a[name][i], b[name][i])) differing++;
   return differing;
 }

@@ -7,7 +7,7 @@
 import { afterAll, describe, expect, it } from "vitest";
 import type { EffectPrior } from "../../src/stats/effect-prior.ts";
 import { StatsInputError } from "../../src/stats/errors.ts";
-import { posteriorColumns } from "../../src/stats/posterior.ts";
+import { posteriorColumnNames, posteriorColumns } from "../../src/stats/posterior.ts";
 import { type PosteriorSums, posteriorSumsUnderPriors } from "../../src/stats/posterior-sums.ts";
 import { createRandom } from "../../src/stats/random.ts";
 import { helperThread } from "../../src/threads/helper-thread.ts";
@@ -95,16 +95,7 @@ describe("posterior columns on two threads, synchronously", () => {
   it("equal posteriorColumns entry for entry", () => {
     const columns = posteriorColumnsOnThreadsNow(priors[0] as EffectPrior, y, s, 0.9);
     const expected = posteriorColumns(priors[0] as EffectPrior, y, s, 0.9);
-    for (const name of [
-      "mean",
-      "sd",
-      "lower",
-      "upper",
-      "probPositive",
-      "probNull",
-      "probNegative",
-      "lfsr",
-    ] as const)
+    for (const name of posteriorColumnNames)
       expect(columns[name].every((value, i) => Object.is(value, expected[name][i]))).toBe(true);
   });
 });
