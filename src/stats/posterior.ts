@@ -554,6 +554,20 @@ function linearUniformLowerTail(workspace: Workspace, c: number, zt: number): nu
   return Math.min(1, Math.max(0, mass / (workspace.linearMass[c] as number)));
 }
 
+/** P(component c > t) for a linear-space uniform, with the tails at z_t in workspace.tails. */
+function linearUniformUpperTail(workspace: Workspace, c: number, zt: number): number {
+  const tails = workspace.tails;
+  const mass = normalIntervalMass(
+    zt,
+    tails[0] as number,
+    tails[1] as number,
+    workspace.upperZ[c] as number,
+    workspace.upperBelow[c] as number,
+    workspace.upperAbove[c] as number,
+  );
+  return Math.min(1, Math.max(0, mass / (workspace.linearMass[c] as number)));
+}
+
 // ---- moments, tails and quantiles of the mixture ---------------------------------------------
 
 /** Mean and variance of N(m, sc^2) truncated to [l, u] (stable deep in the tails). */
@@ -634,16 +648,7 @@ function componentUpperTail(workspace: Workspace, c: number, t: number): number 
   if ((workspace.linearMass[c] as number) > 0) {
     const zt = (t - m) / sc;
     normalTails(zt, workspace.tails);
-    const tails = workspace.tails;
-    const mass = normalIntervalMass(
-      zt,
-      tails[0] as number,
-      tails[1] as number,
-      workspace.upperZ[c] as number,
-      workspace.upperBelow[c] as number,
-      workspace.upperAbove[c] as number,
-    );
-    return Math.min(1, Math.max(0, mass / (workspace.linearMass[c] as number)));
+    return linearUniformUpperTail(workspace, c, zt);
   }
   return Math.exp(
     logNormalIntervalProbability((t - m) / sc, (u - m) / sc) - (workspace.logMass[c] as number),
