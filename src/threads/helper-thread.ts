@@ -14,7 +14,8 @@
  * is up.
  *
  * Where a thread cannot start (or PLUMBLINE_THREADS=1), helperThread() returns null and the
- * callers compute everything on the calling thread; results never depend on which thread computed.
+ * callers compute everything on the calling thread (a warning says so once per process); results
+ * never depend on which thread computed.
  */
 import { fileURLToPath } from "node:url";
 import { Worker } from "node:worker_threads";
@@ -39,7 +40,10 @@ export class HelperThread {
       this.listeners.clear();
       forget(this);
     };
-    worker.on("error", fail);
+    worker.on("error", (error) => {
+      warnOnce(`the helper thread failed (${error.message}); computing on one thread`);
+      fail(error);
+    });
     worker.on("exit", (code) => fail(new Error(`the helper thread stopped (exit code ${code})`)));
     // After the listeners: attaching a message listener refs the worker again.
     worker.unref();
@@ -81,6 +85,14 @@ export class HelperThread {
 }
 
 let current: HelperThread | null = null;
+let warned = false;
+
+/** Says once per process that work falls back to one thread (the figures stay the same, only slower). */
+function warnOnce(message: string): void {
+  if (warned) return;
+  warned = true;
+  process.emitWarning(message, { code: "PLUMBLINE_ONE_THREAD" });
+}
 let bundle: string | null = null;
 
 /** A stopped or failed helper is replaced by a new one on the next call. */
@@ -95,7 +107,8 @@ export function helperThread(): HelperThread | null {
   try {
     bundle ??= bundleEntry();
     current = new HelperThread(new Worker(bundle, { eval: true, workerData: { role: "plumbline-helper" } }));
-  } catch {
+  } catch (error) {
+    warnOnce(`the helper thread could not start (${(error as Error).message}); computing on one thread`);
     return null;
   }
   return current;
