@@ -15,8 +15,7 @@
  *
  * Where a thread cannot start (or PLUMBLINE_THREADS=1), helperThread() returns null and the
  * callers compute everything on the calling thread (when it cannot start or fails, a warning says
- * so once per process); results
- * never depend on which thread computed.
+ * so once per process); results never depend on which thread computed.
  */
 import { fileURLToPath } from "node:url";
 import { Worker } from "node:worker_threads";
