@@ -83,9 +83,10 @@ function fillGaussian(
     const offset = i * columns;
     let maximum = 0;
     for (let k = 0; k < columns; k++) {
-      const variance = seVariance + (variances[k] as number);
+      // One division an entry: the reciprocal variance serves the exponent and the scale.
+      const precision = 1 / (seVariance + (variances[k] as number));
       const deviation = yi - (means[k] as number);
-      const value = Math.exp((-0.5 * deviation * deviation) / variance) / Math.sqrt(variance);
+      const value = Math.exp(-0.5 * deviation * deviation * precision) * Math.sqrt(precision);
       values[offset + k] = value;
       if (value > maximum) maximum = value;
     }
