@@ -147,7 +147,7 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
   app.route("/api/v1", importsRoutes(deps));
   app.route("/api/v1", calibrateRoutes(deps));
   app.route("/api/v1", calculatorsRoutes(deps));
-  app.route("/api/v1", reviewRoutes(deps));
+  app.route("/api/v1", reviewRoutes(deps, { logError }));
   app.route("/api/v1", fitRoutes(deps));
 
   app.doc("/api/openapi.json", documentConfig);

@@ -106,27 +106,58 @@ export function resolveReviewSettings(request: ReviewRequest): ReviewSettings {
   };
 }
 
+/** What identifies a review: its resolved settings and its cache key on the data as stored now. */
+export interface ReviewIdentity {
+  readonly settings: ReviewSettings;
+  /** Whether the refits were asked for: a default is lowered for a large history, an asked number is not. */
+  readonly bootstrapAsked: boolean;
+  /** Changes with the workspace's data version, so a write to its history makes a new key. */
+  readonly cacheKey: string;
+}
+
+export async function reviewIdentity(
+  db: Database,
+  workspaceId: number,
+  request: ReviewRequest,
+): Promise<ReviewIdentity> {
+  const settings = resolveReviewSettings(request);
+  const dataVersion = await storedDataVersion(db, workspaceId);
+  const bootstrapAsked = request.bootstrap !== undefined;
+  return {
+    settings,
+    bootstrapAsked,
+    cacheKey: reviewCacheKey(workspaceId, { settings, bootstrapAsked }, dataVersion),
+  };
+}
+
+/** The review from the cache (with its table when asked for), or null when it must be computed. */
+export async function cachedReview(
+  db: Database,
+  identity: ReviewIdentity,
+  includeTests: boolean,
+): Promise<ReviewOutcome | null> {
+  const { cacheKey } = identity;
+  const summary = await readCache<ReviewSummary>(db, cacheKey, reviewCacheKind);
+  if (!summary) return null;
+  // cache_key is the table's primary key: the per-test table gets its own key.
+  const tests = includeTests
+    ? await readCache<ReviewTestRow[]>(db, `${cacheKey}:tests`, reviewTestsCacheKind)
+    : null;
+  return includeTests && !tests ? null : { summary, tests, cached: true, cacheKey };
+}
+
 export async function runReview(
   db: Database,
   workspaceId: number,
   request: ReviewRequest,
   options: { readonly includeTests?: boolean; readonly onProgress?: (message: string) => void } = {},
 ): Promise<ReviewOutcome> {
-  const settings = resolveReviewSettings(request);
+  const identity = await reviewIdentity(db, workspaceId, request);
+  const { settings, bootstrapAsked, cacheKey } = identity;
   const progress = options.onProgress ?? (() => undefined);
-  const dataVersion = await storedDataVersion(db, workspaceId);
-  // Whether the refits were asked for is part of the keys: a default is lowered for a large history.
-  const bootstrapAsked = request.bootstrap !== undefined;
-  const cacheKey = reviewCacheKey(workspaceId, { settings, bootstrapAsked }, dataVersion);
-  // cache_key is the table's primary key: the table gets its own key.
   const testsCacheKey = `${cacheKey}:tests`;
-  const cachedSummary = await readCache<ReviewSummary>(db, cacheKey, reviewCacheKind);
-  if (cachedSummary) {
-    const tests = options.includeTests
-      ? await readCache<ReviewTestRow[]>(db, testsCacheKey, reviewTestsCacheKind)
-      : null;
-    if (!options.includeTests || tests) return { summary: cachedSummary, tests, cached: true, cacheKey };
-  }
+  const cached = await cachedReview(db, identity, options.includeTests ?? false);
+  if (cached) return cached;
 
   progress("reading the stored history");
   const data = await readReviewData(db, workspaceId, settings.filters);
@@ -154,6 +185,7 @@ export async function runReview(
     fits = fitsFromJson(cachedFits);
   } else {
     progress(`fitting the prior to ${included.length} tests of "${data.family}"`);
+    await yieldToEventLoop();
     fits = await fitReviewPriors(observations, fitSettings, progress);
     await writeCache(db, workspaceId, [
       { cacheKey: fitsKey, kind: reviewFitsCacheKind, json: fitsToJson(fits) },
@@ -161,6 +193,7 @@ export async function runReview(
   }
   const { fit, alternatives, bootstrapPriors, gridRowCoarse, lowered } = fits;
   progress("computing the review");
+  await yieldToEventLoop();
   const review = programReview({
     tests: data.reviewedTests,
     fit,
@@ -215,6 +248,14 @@ export async function runReview(
     cached: false,
     cacheKey,
   };
+}
+
+/**
+ * Lets queued requests (such as a review run's progress polls) be answered before a stage that
+ * holds the thread for a while.
+ */
+function yieldToEventLoop(): Promise<void> {
+  return new Promise((resolve) => setImmediate(resolve));
 }
 
 function describeFilters(filters: ReviewFilters): string {

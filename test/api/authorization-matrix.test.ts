@@ -210,6 +210,22 @@ const routes: readonly RouteCase[] = [
     scoped: true,
     path: (target) => `/api/v1/imports/${target.importIds[0]}`,
   },
+  {
+    method: "GET",
+    template: "/api/v1/review/runs/{id}",
+    needs: "read",
+    success: 200,
+    scoped: true,
+    // A run of the target workspace (started with its own token), whatever state it is in.
+    path: async (target) => {
+      const started = await app.request("/api/v1/review/runs", {
+        method: "POST",
+        headers: { authorization: `Bearer ${target.tokens.read}`, "content-type": "application/json" },
+        body: JSON.stringify({ settings: { bootstrap: 0 } }),
+      });
+      return `/api/v1/review/runs/${((await started.json()) as { id: string }).id}`;
+    },
+  },
 ];
 
 function authorizationHeader(caller: SeededWorkspace, credential: Credential): string | undefined {

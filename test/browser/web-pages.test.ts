@@ -238,6 +238,11 @@ describe("plumbline's pages in a real browser", () => {
   it("program review: headline figures match GET /review, charts draw, cautions show, the CSV downloads", async () => {
     const { page, problems } = await openPage("/app/review");
     await page.waitForSelector('[data-figure="false-discovery-rate"]', { timeout: 30_000 });
+    // The page computes through a review run (started, then polled), not one long request.
+    const requested = await page.evaluate(() =>
+      performance.getEntriesByType("resource").map((entry) => entry.name),
+    );
+    expect(requested.some((name) => name.endsWith("/api/v1/review/runs"))).toBe(true);
     const review = await api<{
       metricFamily: string;
       shipped: number;

@@ -74,6 +74,76 @@ describe("GET /api/v1/review", () => {
   });
 });
 
+describe("review runs", () => {
+  async function poll(path: string) {
+    for (;;) {
+      const body = await (await get(path)).json();
+      if (body.state !== "running") return body;
+      await new Promise((resolve) => setTimeout(resolve, 20));
+    }
+  }
+
+  it("starts a run, reports its stages, then serves the review it cached", async () => {
+    const settings = { family: "conversion", priorFamily: "symmetric", bootstrap: 20, seed: 3 };
+    const started = await post("/api/v1/review/runs", { settings, tests: true }, tokens.read);
+    expect(started.status).toBe(202);
+    const running = await started.json();
+    expect(running.state).toBe("running");
+    expect(started.headers.get("location")).toBe(`/api/v1/review/runs/${running.id}`);
+    expect(running.review).toBeNull();
+    const done = await poll(running.poll);
+    expect(done.state).toBe("ready");
+    expect(done.error).toBeNull();
+    expect(done.includesTests).toBe(true);
+    const messages = done.stages.map((stage: { message: string }) => stage.message);
+    expect(messages[0]).toBe("reading the stored history");
+    expect(messages).toContain("bootstrap refit 20 of 20");
+    expect(messages.at(-1)).toBe("computing the review");
+    expect(done.elapsedSeconds).toBeGreaterThan(0);
+    // The run cached the review and its table: GET answers from the cache with the same document.
+    const query = "family=conversion&priorFamily=symmetric&bootstrap=20&seed=3";
+    const review = await (await get(`/api/v1/review?${query}`)).json();
+    expect(review.cached).toBe(true);
+    expect({ ...review, cached: false }).toEqual(done.review);
+    expect((await (await get(`/api/v1/review/tests?${query}`)).json()).cached).toBe(true);
+    // Started again, it is ready at once.
+    const again = await post("/api/v1/review/runs", { settings, tests: true }, tokens.read);
+    expect(again.status).toBe(200);
+    const ready = await again.json();
+    expect(ready.state).toBe("ready");
+    expect(ready.cached).toBe(true);
+    expect(ready.review.cached).toBe(true);
+  }, 120_000);
+
+  it("shares one computation between a run and the identical GET /review", async () => {
+    const settings = { family: "conversion", priorFamily: "symmetric", bootstrap: 10, seed: 4 };
+    const started = await (await post("/api/v1/review/runs", { settings }, tokens.read)).json();
+    const review = await (
+      await get("/api/v1/review?family=conversion&priorFamily=symmetric&bootstrap=10&seed=4")
+    ).json();
+    const done = await poll(started.poll);
+    // Both got the result of one computation: neither came from the cache.
+    expect(review.cached).toBe(false);
+    expect(done.cached).toBe(false);
+    expect({ ...review, cached: false }).toEqual(done.review);
+  }, 120_000);
+
+  it("reports a failed run with the error the request would have had, and 404 for unknown runs", async () => {
+    const started = await post("/api/v1/review/runs", { settings: { family: "nothing" } }, tokens.read);
+    expect(started.status).toBe(202);
+    const failed = await poll((await started.json()).poll);
+    expect(failed.state).toBe("failed");
+    expect(failed.error.status).toBe(422);
+    expect(failed.error.message).toMatch(/nothing/);
+    const unknown = await get("/api/v1/review/runs/no-such-run");
+    expect(unknown.status).toBe(404);
+    expect((await unknown.json()).error.code).toBe("not_found");
+    const invalid = await post("/api/v1/review/runs", { settings: { alpha: 2 } }, tokens.read);
+    expect(invalid.status).toBe(400);
+    expect((await invalid.json()).error.issues[0].path).toBe("settings.alpha");
+  }, 120_000);
+});
+
 describe("saved reviews", () => {
   it("saves with a write token only, never overwrites, lists, shows and compares", async () => {
     expect((await post("/api/v1/reviews", { label: "q3" }, tokens.read)).status).toBe(403);

@@ -10,6 +10,7 @@ import { reviewPValuesChart } from "../charts/review-p-values.ts";
 import { reviewPitChart, reviewRealizedChart } from "../charts/review-realized.ts";
 import { reviewShippedWinsChart } from "../charts/review-shipped-wins.ts";
 import {
+  ApiFailure,
   apiJson,
   chart,
   dataTable,
@@ -460,6 +461,42 @@ function downloads(query: URLSearchParams): HTMLElement {
   );
 }
 
+interface ReviewRun {
+  readonly state: "running" | "ready" | "failed";
+  readonly stage: string | null;
+  readonly elapsedSeconds: number;
+  readonly poll: string;
+  readonly review: Review | null;
+  readonly error: { readonly status: number; readonly code: string; readonly message: string } | null;
+}
+
+/**
+ * The review through a run of the server: started (with its per-test table, so that the table
+ * the page reads next is cached), then polled, each stage shown, until it is ready or failed.
+ */
+async function reviewByRun(query: URLSearchParams, show: (text: string) => void): Promise<Review> {
+  let run = await apiJson<ReviewRun>("/api/v1/review/runs", {
+    method: "POST",
+    body: JSON.stringify({ settings: Object.fromEntries(query), tests: true }),
+  });
+  while (run.state === "running") {
+    show(
+      `Computing the review: ${run.stage ?? "starting"} (${run.elapsedSeconds.toFixed(1)} s so far). A review not computed before on this data takes a few seconds; it is cached for the next time.`,
+    );
+    await new Promise((resolve) => setTimeout(resolve, 400));
+    run = await apiJson<ReviewRun>(run.poll);
+  }
+  if (run.state === "failed" || !run.review) {
+    const error = run.error ?? {
+      status: 500,
+      code: "internal",
+      message: "the review run ended without a review",
+    };
+    throw new ApiFailure(error.status, error.code, error.message);
+  }
+  return run.review;
+}
+
 startPage(async (root) => {
   const parameters = new URLSearchParams(location.search);
   const index = await historyIndex();
@@ -573,7 +610,10 @@ startPage(async (root) => {
       output,
       "Computing the review… a review not computed before on this data takes a few seconds (the prior is refitted to bootstrap resamples).",
       async () => {
-        const review = await apiJson<Review>(`/api/v1/review?${query}`);
+        const review = await reviewByRun(query, (text) => {
+          const status = output.querySelector(".loading");
+          if (status) status.textContent = text;
+        });
         fillFamilies(review);
         // "(no team)" and "(no date)" label groups; they are not values the filters take.
         for (const group of review.confusionMatrix.byTeam)

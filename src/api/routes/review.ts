@@ -9,7 +9,8 @@ import type { JSONValue } from "hono/utils/types";
 import { reviewCsv } from "../../report/review-csv.ts";
 import { reviewHtml } from "../../report/review-html.ts";
 import { ReviewDataError } from "../../review/read-review-data.ts";
-import { type ReviewRequest, runReview } from "../../review/run-review.ts";
+import { type ReviewRun, type ReviewRunError, ReviewRuns } from "../../review/review-runs.ts";
+import { cachedReview, type ReviewRequest, reviewIdentity, runReview } from "../../review/run-review.ts";
 import {
   compareReviews,
   listReviews,
@@ -17,6 +18,7 @@ import {
   saveReview,
   showReview,
 } from "../../review/saved-reviews.ts";
+import { StatsInputError } from "../../stats/errors.ts";
 import { requiredRole } from "../auth.ts";
 import { authenticatedErrors, errorResponses, IsoDateSchema } from "../common-schemas.ts";
 import type { ApiRouter, AppDeps, AppEnv } from "../context.ts";
@@ -194,6 +196,40 @@ const ComparisonSchema = z
   .loose()
   .openapi("ReviewComparison");
 
+const ReviewRunRequestSchema = z
+  .object({
+    settings: ReviewQuerySchema.optional().openapi({ description: "The same settings as GET /review" }),
+    tests: z
+      .boolean()
+      .optional()
+      .openapi({ description: "Also compute and cache the per-test table (default false)" }),
+  })
+  .openapi("ReviewRunRequest");
+
+const ReviewRunSchema = z
+  .object({
+    id: z.string(),
+    state: z.enum(["running", "ready", "failed"]),
+    stage: z.string().nullable().openapi({ description: "What the run is doing now (its latest stage)" }),
+    stages: z.array(z.object({ message: z.string(), atSeconds: z.number() })),
+    startedAt: z.string(),
+    finishedAt: z.string().nullable(),
+    elapsedSeconds: z.number(),
+    includesTests: z.boolean(),
+    cached: z.boolean(),
+    poll: z.string().openapi({ description: "Where to read the run again" }),
+    review: ReviewSummarySchema.nullable().openapi({ description: "The review, once the run is ready" }),
+    error: z.object({ status: z.number().int(), code: z.string(), message: z.string() }).nullable(),
+  })
+  .openapi("ReviewRun");
+
+const RunParamSchema = z.object({
+  id: z
+    .string()
+    .min(1)
+    .openapi({ param: { name: "id", in: "path" } }),
+});
+
 const LabelParamSchema = z.object({
   label: z
     .string()
@@ -230,10 +266,62 @@ function mapReviewError(error: unknown): never {
   throw error;
 }
 
-export function reviewRoutes({ db }: AppDeps): ApiRouter {
+/** What a failed run reports: the status and envelope the same request would have answered with. */
+function runError(error: unknown, logError: (message: string, error: unknown) => void): ReviewRunError {
+  try {
+    mapReviewError(error);
+  } catch (mapped) {
+    if (mapped instanceof ApiError)
+      return { status: mapped.status, code: mapped.code, message: mapped.message };
+  }
+  if (error instanceof StatsInputError) return { status: 422, code: "unprocessable", message: error.message };
+  logError("plumbline: unexpected error in a review run", error);
+  return { status: 500, code: "internal", message: "internal error in the review run; see the server's log" };
+}
+
+function runView(run: ReviewRun, now: Date) {
+  const end = run.finishedAt ?? now;
+  return {
+    id: run.id,
+    state: run.state,
+    stage: run.stages.at(-1)?.message ?? null,
+    stages: [...run.stages],
+    startedAt: run.startedAt.toISOString(),
+    finishedAt: run.finishedAt?.toISOString() ?? null,
+    elapsedSeconds: (end.getTime() - run.startedAt.getTime()) / 1000,
+    includesTests: run.includesTests,
+    cached: run.cached,
+    poll: `/api/v1/review/runs/${run.id}`,
+    review: run.summary
+      ? ({ cached: run.cached, ...run.summary } as unknown as z.infer<typeof ReviewSummarySchema>)
+      : null,
+    error: run.error,
+  };
+}
+
+export function reviewRoutes(
+  { db }: AppDeps,
+  options: { readonly logError?: (message: string, error: unknown) => void } = {},
+): ApiRouter {
+  const logError = options.logError ?? ((message, error) => console.error(message, error));
+  // One registry per app: identical requests share a computation, and runs are polled by id.
+  const runs = new ReviewRuns({ describeError: (error) => runError(error, logError) });
+
+  /** Starts (or joins) the run of this review, or answers from the cache at once. */
+  async function startRun(workspaceId: number, query: ReviewQuery, includeTests: boolean) {
+    const request = toRequest(query);
+    const identity = await reviewIdentity(db, workspaceId, request);
+    const cached = await cachedReview(db, identity, includeTests);
+    if (cached)
+      return { run: runs.finished(workspaceId, includeTests, cached), outcome: Promise.resolve(cached) };
+    return runs.start(workspaceId, identity.cacheKey, includeTests, (onProgress) =>
+      runReview(db, workspaceId, request, { includeTests, onProgress }),
+    );
+  }
+
   async function compute(workspaceId: number, query: ReviewQuery, includeTests: boolean) {
     try {
-      return await runReview(db, workspaceId, toRequest(query), { includeTests });
+      return await (await startRun(workspaceId, query, includeTests)).outcome;
     } catch (error) {
       return mapReviewError(error);
     }
@@ -266,6 +354,69 @@ export function reviewRoutes({ db }: AppDeps): ApiRouter {
           { cached: outcome.cached, ...outcome.summary } as unknown as z.infer<typeof ReviewSummarySchema>,
           200,
         );
+      },
+    )
+    .openapi(
+      createRoute({
+        method: "post",
+        path: "/review/runs",
+        tags: ["review"],
+        ...requiredRole("read"),
+        summary: "Start the review in the background and follow its progress",
+        description:
+          "Answers 200 with the review when it is cached, else 202 with the run (its stages so far); poll " +
+          "GET /review/runs/{id} until state is ready or failed. An identical review already running is joined, " +
+          "not started twice. Finished runs are kept 15 minutes.",
+        request: {
+          body: { required: false, content: { "application/json": { schema: ReviewRunRequestSchema } } },
+        },
+        responses: {
+          200: {
+            description: "Ready (from the cache)",
+            content: { "application/json": { schema: ReviewRunSchema } },
+          },
+          202: {
+            description: "Running; poll the run",
+            content: { "application/json": { schema: ReviewRunSchema } },
+          },
+          ...errorResponses(...authenticatedErrors, 422),
+        },
+      }),
+      async (c) => {
+        const body = c.req.valid("json") ?? {};
+        const { run } = await startRun(c.get("auth").workspaceId, body.settings ?? {}, body.tests ?? false);
+        const view = runView(run, new Date());
+        if (run.state === "running") {
+          c.header("Location", view.poll);
+          c.header("Retry-After", "1");
+          return c.json(view, 202);
+        }
+        return c.json(view, 200);
+      },
+    )
+    .openapi(
+      createRoute({
+        method: "get",
+        path: "/review/runs/{id}",
+        tags: ["review"],
+        ...requiredRole("read"),
+        summary: "A review run: its state, stages, and the review once ready",
+        request: { params: RunParamSchema },
+        responses: {
+          200: { description: "The run", content: { "application/json": { schema: ReviewRunSchema } } },
+          ...errorResponses(...authenticatedErrors, 404),
+        },
+      }),
+      async (c) => {
+        const { id } = c.req.valid("param");
+        const run = runs.get(c.get("auth").workspaceId, id);
+        if (!run)
+          throw new ApiError(
+            404,
+            "not_found",
+            `no review run ${JSON.stringify(id)} in this workspace (finished runs are kept 15 minutes)`,
+          );
+        return c.json(runView(run, new Date()), 200);
       },
     )
     .openapi(
