@@ -14,6 +14,7 @@ import { HTTPException } from "hono/http-exception";
 import { requestId } from "hono/request-id";
 import type { ContentfulStatusCode } from "hono/utils/http-status";
 import { importLimits } from "../import/import-file.ts";
+import type { ReviewRuns } from "../review/review-runs.ts";
 import { StatsInputError } from "../stats/errors.ts";
 import { webPages } from "../web/web-pages.ts";
 import { authenticate } from "./auth.ts";
@@ -31,7 +32,7 @@ import { importsRoutes } from "./routes/imports.ts";
 import { metricsRoutes } from "./routes/metrics.ts";
 import { realizedRoutes } from "./routes/realized.ts";
 import { resultsRoutes } from "./routes/results.ts";
-import { reviewRoutes } from "./routes/review.ts";
+import { apiReviewRuns, reviewRoutes } from "./routes/review.ts";
 import { tokensRoutes } from "./routes/tokens.ts";
 import { workspacesRoutes } from "./routes/workspaces.ts";
 
@@ -40,6 +41,8 @@ export interface AppOptions {
   readonly maximumBodyBytes?: number;
   /** Where unexpected errors are reported (default console.error). */
   readonly logError?: (message: string, error: unknown) => void;
+  /** The registry of review runs (default: one of the app's own); the server shares it with its preparer. */
+  readonly reviewRuns?: ReviewRuns;
 }
 
 /** Twice the importer's file limit: a file sent inside a JSON body grows when it is escaped. */
@@ -147,7 +150,7 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
   app.route("/api/v1", importsRoutes(deps));
   app.route("/api/v1", calibrateRoutes(deps));
   app.route("/api/v1", calculatorsRoutes(deps));
-  app.route("/api/v1", reviewRoutes(deps, { logError }));
+  app.route("/api/v1", reviewRoutes(deps, options.reviewRuns ?? apiReviewRuns(logError)));
   app.route("/api/v1", fitRoutes(deps));
 
   app.doc("/api/openapi.json", documentConfig);

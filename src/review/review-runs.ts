@@ -7,7 +7,15 @@
  * the table, which the cache holds) for a while, so that a late poll still finds them.
  */
 import { randomUUID } from "node:crypto";
-import type { ReviewOutcome, ReviewSummary } from "./run-review.ts";
+import type { Database } from "../db/client.ts";
+import {
+  cachedReview,
+  type ReviewOutcome,
+  type ReviewRequest,
+  type ReviewSummary,
+  reviewIdentity,
+  runReview,
+} from "./run-review.ts";
 
 export type ReviewRunState = "running" | "ready" | "failed";
 
@@ -181,4 +189,24 @@ export class ReviewRuns {
 
 function runningKey(cacheKey: string, includeTests: boolean): string {
   return includeTests ? `${cacheKey}:tests` : cacheKey;
+}
+
+/**
+ * Starts (or joins) the run of this review in the registry, or answers from the cache at once with
+ * a finished run: what the API's review routes and the background preparer both call.
+ */
+export async function startReviewRun(
+  db: Database,
+  runs: ReviewRuns,
+  workspaceId: number,
+  request: ReviewRequest,
+  includeTests: boolean,
+): Promise<StartedRun> {
+  const identity = await reviewIdentity(db, workspaceId, request);
+  const cached = await cachedReview(db, identity, includeTests);
+  if (cached)
+    return { run: runs.finished(workspaceId, includeTests, cached), outcome: Promise.resolve(cached) };
+  return runs.start(workspaceId, identity.cacheKey, includeTests, (onProgress) =>
+    runReview(db, workspaceId, request, { includeTests, onProgress }),
+  );
 }

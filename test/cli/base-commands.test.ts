@@ -254,4 +254,12 @@ describe("serve", () => {
       delete process.env["PORT"];
     }
   });
+
+  it("refuses a preparation interval that is not a number of seconds, naming the option", async () => {
+    for (const value of ["-1", "soon", ""]) {
+      const io = memoryIo();
+      expect(await runServe([`--prepare-reviews-every=${value}`], io)).toBe(2);
+      expect(io.stderr.join("\n")).toContain("--prepare-reviews-every must be a number of seconds");
+    }
+  });
 });

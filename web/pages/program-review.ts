@@ -621,9 +621,10 @@ startPage(async (root) => {
         for (const group of review.confusionMatrix.byQuarter)
           if (/^\d{4}Q[1-4]$/.test(group.quarter)) quarters.add(group.quarter);
         fillChoices();
-        // Pin the family the server chose, so that the table and the downloads are of the same one.
-        if (!query.has("family")) query.set("family", review.metricFamily);
+        // The table with the run's own settings: the run cached it under them.
         const tests = await apiJson<ReviewTests>(`/api/v1/review/tests?${query}`);
+        // Pin the family the server chose, so that the downloads are of the same one.
+        if (!query.has("family")) query.set("family", review.metricFamily);
         const scope = [
           `Metric family ${review.metricFamily}`,
           query.get("team") ? `team ${query.get("team")}` : "all teams",

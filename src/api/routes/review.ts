@@ -9,8 +9,8 @@ import type { JSONValue } from "hono/utils/types";
 import { reviewCsv } from "../../report/review-csv.ts";
 import { reviewHtml } from "../../report/review-html.ts";
 import { ReviewDataError } from "../../review/read-review-data.ts";
-import { type ReviewRun, type ReviewRunError, ReviewRuns } from "../../review/review-runs.ts";
-import { cachedReview, type ReviewRequest, reviewIdentity, runReview } from "../../review/run-review.ts";
+import { type ReviewRun, type ReviewRunError, ReviewRuns, startReviewRun } from "../../review/review-runs.ts";
+import type { ReviewRequest } from "../../review/run-review.ts";
 import {
   compareReviews,
   listReviews,
@@ -299,25 +299,15 @@ function runView(run: ReviewRun, now: Date) {
   };
 }
 
-export function reviewRoutes(
-  { db }: AppDeps,
-  options: { readonly logError?: (message: string, error: unknown) => void } = {},
-): ApiRouter {
-  const logError = options.logError ?? ((message, error) => console.error(message, error));
-  // One registry per app: identical requests share a computation, and runs are polled by id.
-  const runs = new ReviewRuns({ describeError: (error) => runError(error, logError) });
+/** The registry of review runs for an app, its failures described as the API reports errors. */
+export function apiReviewRuns(logError: (message: string, error: unknown) => void): ReviewRuns {
+  return new ReviewRuns({ describeError: (error) => runError(error, logError) });
+}
 
-  /** Starts (or joins) the run of this review, or answers from the cache at once. */
-  async function startRun(workspaceId: number, query: ReviewQuery, includeTests: boolean) {
-    const request = toRequest(query);
-    const identity = await reviewIdentity(db, workspaceId, request);
-    const cached = await cachedReview(db, identity, includeTests);
-    if (cached)
-      return { run: runs.finished(workspaceId, includeTests, cached), outcome: Promise.resolve(cached) };
-    return runs.start(workspaceId, identity.cacheKey, includeTests, (onProgress) =>
-      runReview(db, workspaceId, request, { includeTests, onProgress }),
-    );
-  }
+/** `runs`: one registry per app (identical requests share a computation; runs are polled by id). */
+export function reviewRoutes({ db }: AppDeps, runs: ReviewRuns): ApiRouter {
+  const startRun = (workspaceId: number, query: ReviewQuery, includeTests: boolean) =>
+    startReviewRun(db, runs, workspaceId, toRequest(query), includeTests);
 
   async function compute(workspaceId: number, query: ReviewQuery, includeTests: boolean) {
     try {

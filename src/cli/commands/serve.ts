@@ -7,12 +7,12 @@ import { parseArgs } from "node:util";
 import { ConfigError, loadConfig } from "../../config.ts";
 import { createDb } from "../../db/client.ts";
 import { loadDemoWorkspace } from "../../demo/load-demo.ts";
-import { startServer } from "../../server.ts";
+import { defaultPrepareReviewsEvery, startServer } from "../../server.ts";
 import type { CommandIo } from "../io.ts";
 
 export const summary = "start the HTTP API (--demo: load the demo workspace first and print a token)";
 
-const help = `Usage: plumbline serve [--port N] [--host H] [--demo] [--json]
+const help = `Usage: plumbline serve [--port N] [--host H] [--demo] [--prepare-reviews-every S] [--json]
 
 Starts the HTTP API on the database named by PLUMBLINE_DATABASE_URL
 (default file:./data/plumbline.db) and keeps running until interrupted.
@@ -20,6 +20,10 @@ Starts the HTTP API on the database named by PLUMBLINE_DATABASE_URL
   --port N   port to listen on (default: PORT, else 8080)
   --host H   address to bind (default: all interfaces)
   --demo     create or refresh the demo workspace first and print a read token for it
+  --prepare-reviews-every S
+             seconds between the checks that compute, in the background, the default
+             review of a workspace whose history changed, so that the review page opens
+             from the cache (default ${defaultPrepareReviewsEvery}; 0 turns it off)
   --json     print one JSON document {url, workspace?, token?} once listening`;
 
 /** Resolves when the process is asked to stop; tests pass their own. */
@@ -28,7 +32,14 @@ export interface ServeControl {
 }
 
 export async function run(args: string[], io: CommandIo, control?: ServeControl): Promise<number> {
-  let values: { port?: string; host?: string; demo?: boolean; json?: boolean; help?: boolean };
+  let values: {
+    port?: string;
+    host?: string;
+    demo?: boolean;
+    json?: boolean;
+    help?: boolean;
+    "prepare-reviews-every"?: string;
+  };
   try {
     ({ values } = parseArgs({
       args,
@@ -38,6 +49,7 @@ export async function run(args: string[], io: CommandIo, control?: ServeControl)
         port: { type: "string" },
         host: { type: "string" },
         demo: { type: "boolean" },
+        "prepare-reviews-every": { type: "string" },
         json: { type: "boolean" },
         help: { type: "boolean", short: "h" },
       },
@@ -49,6 +61,15 @@ export async function run(args: string[], io: CommandIo, control?: ServeControl)
   if (values.help) {
     io.out(help);
     return 0;
+  }
+
+  const prepareText = values["prepare-reviews-every"];
+  const prepareReviewsEvery = prepareText === undefined ? defaultPrepareReviewsEvery : Number(prepareText);
+  if (!Number.isFinite(prepareReviewsEvery) || prepareReviewsEvery < 0 || prepareText?.trim() === "") {
+    io.err(
+      `plumbline serve: --prepare-reviews-every must be a number of seconds, 0 or more (0 turns it off); got ${JSON.stringify(prepareText)}`,
+    );
+    return 2;
   }
 
   let config: ReturnType<typeof loadConfig>;
@@ -85,6 +106,7 @@ export async function run(args: string[], io: CommandIo, control?: ServeControl)
     server = await startServer({
       db: handle.db,
       port: config.port,
+      prepareReviewsEvery,
       ...(values.host ? { hostname: values.host } : {}),
     });
   } catch (error) {

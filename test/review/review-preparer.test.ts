@@ -1,0 +1,75 @@
+/**
+ * The background preparer computes a workspace's default review once its history has held still
+ * for a check, so that the review page's first request reads the cache; it prepares each version
+ * once, and again after a write.
+ */
+import { eq, sql } from "drizzle-orm";
+import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { apiReviewRuns } from "../../src/api/routes/review.ts";
+import { experiments } from "../../src/db/schema.ts";
+import { generateDemo } from "../../src/demo/generate-demo.ts";
+import { startReviewPreparer } from "../../src/review/review-preparer.ts";
+import { startReviewRun } from "../../src/review/review-runs.ts";
+import { runReview } from "../../src/review/run-review.ts";
+import { createTestDb } from "../helpers/db.ts";
+import { seedHistory } from "./seed-history.ts";
+
+let handle: Awaited<ReturnType<typeof createTestDb>>;
+let workspaceId: number;
+
+beforeAll(async () => {
+  handle = await createTestDb();
+  ({ workspaceId } = await seedHistory(
+    handle.db,
+    "fernhollow",
+    generateDemo({ seed: 9, experiments: 200 }).truth.experiments,
+  ));
+}, 60_000);
+afterAll(() => handle.dispose());
+
+describe("startReviewPreparer", () => {
+  it("prepares the default review after one still check, once a version, and again after a write", async () => {
+    const runs = apiReviewRuns(() => undefined);
+    const prepared: { version: number; computed: boolean }[] = [];
+    // A long interval: the test drives the checks itself.
+    const preparer = startReviewPreparer({
+      db: handle.db,
+      runs,
+      intervalMilliseconds: 3_600_000,
+      onPrepared: (_workspace, version, computed) => prepared.push({ version, computed }),
+    });
+    try {
+      await preparer.check();
+      expect(prepared).toEqual([]);
+      await preparer.check();
+      expect(prepared).toHaveLength(1);
+      expect(prepared[0]?.computed).toBe(true);
+      // What the review page asks for first (no settings, with the table) now reads the cache.
+      const page = await startReviewRun(handle.db, runs, workspaceId, {}, true);
+      expect(page.run.state).toBe("ready");
+      expect(page.run.cached).toBe(true);
+      expect((await runReview(handle.db, workspaceId, {}, { includeTests: true })).cached).toBe(true);
+      await preparer.check();
+      expect(prepared).toHaveLength(1);
+
+      // A write bumps the data version: seen at one check, prepared at the next.
+      const [first] = await handle.db
+        .select({ id: experiments.id })
+        .from(experiments)
+        .where(eq(experiments.workspaceId, workspaceId))
+        .limit(1);
+      await handle.db
+        .update(experiments)
+        .set({ name: sql`${experiments.name} || ' (renamed)'` })
+        .where(eq(experiments.id, first?.id as number));
+      await preparer.check();
+      expect(prepared).toHaveLength(1);
+      await preparer.check();
+      expect(prepared).toHaveLength(2);
+      expect(prepared[1]?.version).toBeGreaterThan(prepared[0]?.version as number);
+      expect(prepared[1]?.computed).toBe(true);
+    } finally {
+      preparer.stop();
+    }
+  }, 120_000);
+});
