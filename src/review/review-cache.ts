@@ -59,6 +59,15 @@ export async function readCacheText(db: Database, cacheKey: string, kind: string
   return row ? row.value : null;
 }
 
+/** Whether an entry is cached, without reading its value. */
+export async function cacheHas(db: Database, cacheKey: string, kind: string): Promise<boolean> {
+  const [row] = await db
+    .select({ one: sql<number>`1` })
+    .from(computationCache)
+    .where(and(eq(computationCache.cacheKey, cacheKey), eq(computationCache.kind, kind)));
+  return row !== undefined;
+}
+
 export async function readCache<T>(db: Database, cacheKey: string, kind: string): Promise<T | null> {
   const [row] = await db
     .select({ value: computationCache.value })

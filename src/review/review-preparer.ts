@@ -36,7 +36,9 @@ export function startReviewPreparer(options: {
   let checking: Promise<void> | null = null;
 
   async function prepare(workspaceId: number, version: number): Promise<void> {
-    const started = await startReviewRun(db, runs, workspaceId, defaultRequest, true);
+    const started = await startReviewRun(db, runs, workspaceId, defaultRequest, true, {
+      readTable: false,
+    });
     try {
       await started.outcome;
     } catch {

@@ -193,7 +193,9 @@ function runningKey(cacheKey: string, includeTests: boolean): string {
 
 /**
  * Starts (or joins) the run of this review in the registry, or answers from the cache at once with
- * a finished run: what the API's review routes and the background preparer both call.
+ * a finished run: what the API's review routes and the background preparer both call. With
+ * `readTable: false` a cached table is only checked for, not read (the outcome's `tests` is then
+ * null): for callers that want the table computed and cached but not handed to them.
  */
 export async function startReviewRun(
   db: Database,
@@ -201,9 +203,10 @@ export async function startReviewRun(
   workspaceId: number,
   request: ReviewRequest,
   includeTests: boolean,
+  options: { readonly readTable?: boolean } = {},
 ): Promise<StartedRun> {
   const identity = await reviewIdentity(db, workspaceId, request);
-  const cached = await cachedReview(db, identity, includeTests);
+  const cached = await cachedReview(db, identity, includeTests, options);
   if (cached)
     return { run: runs.finished(workspaceId, includeTests, cached), outcome: Promise.resolve(cached) };
   return runs.start(workspaceId, identity.cacheKey, includeTests, (onProgress) =>

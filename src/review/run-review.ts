@@ -14,6 +14,7 @@ import { posteriorColumnsOnThreadsNow } from "../threads/posterior-threads.ts";
 import { posteriorSumsOnThreads } from "../threads/sums-threads.ts";
 import { readReviewData } from "./read-review-data.ts";
 import {
+  cacheHas,
   readCache,
   readCacheText,
   reviewCacheKey,
@@ -130,20 +131,29 @@ export async function reviewIdentity(
   };
 }
 
-/** The review from the cache (with its table when asked for), or null when it must be computed. */
+/**
+ * The review from the cache (with its table when asked for), or null when it must be computed.
+ * `readTable: false` only checks that the table is cached (a large one is tens of megabytes) and
+ * leaves `tests` null.
+ */
 export async function cachedReview(
   db: Database,
   identity: ReviewIdentity,
   includeTests: boolean,
+  options: { readonly readTable?: boolean } = {},
 ): Promise<ReviewOutcome | null> {
   const { cacheKey } = identity;
   const summary = await readCache<ReviewSummary>(db, cacheKey, reviewCacheKind);
   if (!summary) return null;
+  if (!includeTests) return { summary, tests: null, cached: true, cacheKey };
   // cache_key is the table's primary key: the per-test table gets its own key.
-  const tests = includeTests
-    ? await readCache<ReviewTestRow[]>(db, `${cacheKey}:tests`, reviewTestsCacheKind)
-    : null;
-  return includeTests && !tests ? null : { summary, tests, cached: true, cacheKey };
+  const testsKey = `${cacheKey}:tests`;
+  if (options.readTable === false)
+    return (await cacheHas(db, testsKey, reviewTestsCacheKind))
+      ? { summary, tests: null, cached: true, cacheKey }
+      : null;
+  const tests = await readCache<ReviewTestRow[]>(db, testsKey, reviewTestsCacheKind);
+  return tests ? { summary, tests, cached: true, cacheKey } : null;
 }
 
 export async function runReview(

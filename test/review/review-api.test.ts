@@ -126,6 +126,10 @@ describe("review runs", () => {
     expect(review.cached).toBe(false);
     expect(done.cached).toBe(false);
     expect({ ...review, cached: false }).toEqual(done.review);
+    // The summary is cached but not its table: a run that asks for the table computes it.
+    const withTable = await post("/api/v1/review/runs", { settings, tests: true }, tokens.read);
+    expect(withTable.status).toBe(202);
+    expect((await poll((await withTable.json()).poll)).state).toBe("ready");
   }, 120_000);
 
   it("reports a failed run with the error the request would have had, and 404 for unknown runs", async () => {

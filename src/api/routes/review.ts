@@ -306,8 +306,8 @@ export function apiReviewRuns(logError: (message: string, error: unknown) => voi
 
 /** `runs`: one registry per app (identical requests share a computation; runs are polled by id). */
 export function reviewRoutes({ db }: AppDeps, runs: ReviewRuns): ApiRouter {
-  const startRun = (workspaceId: number, query: ReviewQuery, includeTests: boolean) =>
-    startReviewRun(db, runs, workspaceId, toRequest(query), includeTests);
+  const startRun = (workspaceId: number, query: ReviewQuery, includeTests: boolean, readTable = true) =>
+    startReviewRun(db, runs, workspaceId, toRequest(query), includeTests, { readTable });
 
   async function compute(workspaceId: number, query: ReviewQuery, includeTests: boolean) {
     try {
@@ -374,7 +374,13 @@ export function reviewRoutes({ db }: AppDeps, runs: ReviewRuns): ApiRouter {
       }),
       async (c) => {
         const body = c.req.valid("json") ?? {};
-        const { run } = await startRun(c.get("auth").workspaceId, body.settings ?? {}, body.tests ?? false);
+        // The run view never carries the table: a cached one is only checked for.
+        const { run } = await startRun(
+          c.get("auth").workspaceId,
+          body.settings ?? {},
+          body.tests ?? false,
+          false,
+        );
         const view = runView(run, new Date());
         if (run.state === "running") {
           c.header("Location", view.poll);
