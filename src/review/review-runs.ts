@@ -17,6 +17,9 @@ import {
   runReview,
 } from "./run-review.ts";
 
+/** How long after its start request a run begins computing. */
+const startDelayMilliseconds = 15;
+
 export type ReviewRunState = "running" | "ready" | "failed";
 
 export interface ReviewRunStage {
@@ -127,8 +130,9 @@ export class ReviewRuns {
       run.finishedAt = this.now();
       this.running.delete(runningKey(cacheKey, includeTests));
     };
-    // Started on the next turn, so that the caller holds the run before its first stage.
-    setImmediate(() => {
+    // Started a moment later, so that the answer announcing the run goes out first: the embedded
+    // database reads on this thread, and the review's first read holds it for a while.
+    setTimeout(() => {
       compute(onProgress).then(
         (result) => {
           run.summary = result.summary;
@@ -144,7 +148,7 @@ export class ReviewRuns {
           fail(error);
         },
       );
-    });
+    }, startDelayMilliseconds);
     return started;
   }
 

@@ -35,7 +35,7 @@ function controlled() {
   };
 }
 
-const nextTurn = () => new Promise((resolve) => setImmediate(resolve));
+const nextTurn = () => new Promise((resolve) => setTimeout(resolve, 50));
 
 function clock(start = Date.parse("2026-10-01T09:00:00Z")) {
   let at = start;
