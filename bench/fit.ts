@@ -30,6 +30,7 @@ const sizes = [10_000, 100_000, 1_000_000].filter(
   (n) => n <= Number(process.env.PLUMBLINE_BENCH_FIT_MAX ?? 1e6),
 );
 const tolerance = 1e-6;
+const repeatsUpTo1e5 = 5;
 const emIterationCap: Record<number, number> = { 10000: 5_000, 100000: 1_000, 1000000: 100 };
 const mebibyte = 2 ** 20;
 
@@ -69,15 +70,33 @@ export async function runFitBench(): Promise<object> {
     const data = observationColumns(observations);
     const components = familyComponents(data, "symmetric");
     const penalty = new Float64Array(components.length);
-    let start = performance.now();
-    const matrix = likelihoodMatrix(data.y, data.s, components);
-    const matrixSeconds = seconds(start);
-    const afterMatrix = memory();
-    start = performance.now();
-    const solution = solveMixtureWeights({ matrix, penalty }, { tolerance });
-    const solveSeconds = seconds(start);
-    const afterSolve = memory();
-    start = performance.now();
+    // Up to 1e5 the fit is timed several times: the first run of a size in a process pays for
+    // compiling and first touches (what a one-off command sees), the median is the steady state of
+    // a service that fits again and again. Both are reported; memory is read on the first run.
+    const runs = count <= 100_000 ? repeatsUpTo1e5 : 1;
+    const timings: { matrixSeconds: number; solveSeconds: number }[] = [];
+    const fitOnce = () => {
+      const matrixStart = performance.now();
+      const matrix = likelihoodMatrix(data.y, data.s, components);
+      const matrixSeconds = seconds(matrixStart);
+      const afterMatrix = memory();
+      const solveStart = performance.now();
+      const solution = solveMixtureWeights({ matrix, penalty }, { tolerance });
+      timings.push({ matrixSeconds, solveSeconds: seconds(solveStart) });
+      return { matrix, solution, afterMatrix, afterSolve: memory() };
+    };
+    const { matrix, solution, afterMatrix, afterSolve } = fitOnce();
+    for (let run = 1; run < runs; run++) {
+      collect();
+      fitOnce();
+    }
+    const totals = timings.map((timing) => timing.matrixSeconds + timing.solveSeconds);
+    const middle = [...totals.keys()].sort((a, b) => (totals[a] as number) - (totals[b] as number))[
+      Math.floor(totals.length / 2)
+    ] as number;
+    const { matrixSeconds, solveSeconds } = timings[middle] as (typeof timings)[number];
+    const firstRunSeconds = Math.round((totals[0] as number) * 1e6) / 1e6;
+    const start = performance.now();
     const baseline = expectationMaximizationWeights(
       { matrix, penalty },
       { tolerance, maxIterations: emIterationCap[count] ?? 1000 },
@@ -87,9 +106,12 @@ export async function runFitBench(): Promise<object> {
     fits.push({
       n: count,
       components: components.length,
+      runs,
       matrixSeconds,
       solveSeconds,
       totalSeconds: Math.round(total * 1e6) / 1e6,
+      totalSecondsIs: runs > 1 ? `the median of ${runs} runs` : "one run",
+      firstRunSeconds,
       iterations: solution.iterations,
       converged: solution.converged,
       optimalityGap: solution.optimalityGap,
