@@ -6,6 +6,7 @@
  * fingerprint of the family's rows: a review of another team, quarter or threshold on unchanged
  * data fits nothing, and a per-test table asked for after its summary only recomputes the review.
  */
+
 import { bootstrapPrior } from "../stats/bootstrap-prior.ts";
 import type { EffectPrior } from "../stats/effect-prior.ts";
 import {
@@ -24,6 +25,7 @@ import { type LikelihoodMatrix, likelihoodMatrix } from "../stats/likelihood-mat
 import { thetaGridComponents } from "../stats/prior-grid.ts";
 import { helperThread, sharedFloat64 } from "../threads/helper-thread.ts";
 import { coarseGridOnHelper, refitsOnThreads } from "../threads/refit-threads.ts";
+import { yieldToEventLoop } from "./yield-to-event-loop.ts";
 
 export const defaultBootstrapRefits = 100;
 
@@ -114,6 +116,8 @@ export async function fitReviewPriors(
   if (settings.priorFamily === "auto" && coarseGrid) {
     // The rule of fitEffectPrior's "auto": the better of symmetric and skewed by log-likelihood.
     const symmetric = fitOnSharedMatrix(columns, y, s, "symmetric", nullWeight);
+    progress("fitting the skewed family (the symmetric one is fitted)");
+    await yieldToEventLoop();
     const skewed = fitOnSharedMatrix(columns, y, s, "skewed", nullWeight);
     const chosen = skewed.fit.logLik > symmetric.fit.logLik ? skewed : symmetric;
     fit = chosen.fit;
@@ -143,6 +147,7 @@ export async function fitReviewPriors(
   let bootstrapPriors: readonly EffectPrior[] = [];
   if (refitCount > 0) {
     progress(`refitting the prior to ${refitCount} bootstrap resamples`);
+    await yieldToEventLoop();
     bootstrapPriors = helper
       ? await refitsOnThreads(
           helper,

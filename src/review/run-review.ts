@@ -37,6 +37,7 @@ import {
   largeHistoryTests,
   type ReviewFits,
 } from "./review-fits.ts";
+import { yieldToEventLoop } from "./yield-to-event-loop.ts";
 
 export interface ReviewRequest {
   readonly filters?: ReviewFilters;
@@ -258,14 +259,6 @@ export async function runReview(
     cached: false,
     cacheKey,
   };
-}
-
-/**
- * Lets queued requests (such as a review run's progress polls) be answered before a stage that
- * holds the thread for a while.
- */
-function yieldToEventLoop(): Promise<void> {
-  return new Promise((resolve) => setImmediate(resolve));
 }
 
 function describeFilters(filters: ReviewFilters): string {

@@ -271,33 +271,76 @@ export interface Column<Row> {
   readonly note?: string;
 }
 
+/**
+ * A table whose column buttons sort every row. With `pageSize`, only that many rows are drawn at
+ * first (tens of thousands of rows would hold the browser for seconds), with a button for more;
+ * sorting always orders every row and draws the first page again.
+ */
 export function dataTable<Row>(
   caption: string,
   columns: readonly Column<Row>[],
   rows: readonly Row[],
+  options: { readonly pageSize?: number } = {},
 ): HTMLTableElement {
   const body = el("tbody", {});
   const headers: HTMLTableCellElement[] = [];
   let sortedBy = -1;
   let descending = false;
-  const render = (ordered: readonly Row[]) =>
-    body.replaceChildren(
-      ...ordered.map((row) =>
+  const pageSize = options.pageSize ?? Number.POSITIVE_INFINITY;
+  const footer = el("tfoot", {});
+  let current: readonly Row[] = rows;
+  let shown = 0;
+  const drawRow = (row: Row) =>
+    el(
+      "tr",
+      {},
+      columns.map((column, index) =>
+        index === 0
+          ? el("th", { scope: "row" }, column.cell(row))
+          : el(
+              "td",
+              { class: column.numeric ? "numeric" : column.wrap ? "wrap" : undefined },
+              column.cell(row),
+            ),
+      ),
+    );
+  const drawFooter = () => {
+    if (shown >= current.length) {
+      footer.replaceChildren();
+      return;
+    }
+    const more = Math.min(pageSize, current.length - shown);
+    footer.replaceChildren(
+      el(
+        "tr",
+        {},
         el(
-          "tr",
-          {},
-          columns.map((column, index) =>
-            index === 0
-              ? el("th", { scope: "row" }, column.cell(row))
-              : el(
-                  "td",
-                  { class: column.numeric ? "numeric" : column.wrap ? "wrap" : undefined },
-                  column.cell(row),
-                ),
+          "td",
+          { colspan: columns.length },
+          `${formatInteger(shown)} of ${formatInteger(current.length)} rows shown. `,
+          el(
+            "button",
+            {
+              type: "button",
+              class: "secondary",
+              onclick: () => {
+                body.append(...current.slice(shown, shown + more).map(drawRow));
+                shown += more;
+                drawFooter();
+              },
+            },
+            `Show ${formatInteger(more)} more`,
           ),
         ),
       ),
     );
+  };
+  const render = (ordered: readonly Row[]) => {
+    current = ordered;
+    shown = Math.min(pageSize, ordered.length);
+    body.replaceChildren(...ordered.slice(0, shown).map(drawRow));
+    drawFooter();
+  };
   const sortBy = (index: number) => {
     const key = columns[index]?.sortValue;
     if (!key) return;
@@ -334,6 +377,7 @@ export function dataTable<Row>(
     el("caption", {}, caption),
     el("thead", {}, el("tr", {}, headers)),
     body,
+    footer,
   );
 }
 

@@ -349,6 +349,9 @@ function sensitivityTable(review: Review): HTMLElement {
   );
 }
 
+/** Rows of the per-test table drawn at first, and at each "Show more". */
+const testsTablePageSize = 1000;
+
 function testsTable(rows: readonly ReviewRow[]): HTMLElement {
   const table = dataTable(
     `Every reviewed test (${formatInteger(rows.length)}); the column buttons sort`,
@@ -411,6 +414,8 @@ function testsTable(rows: readonly ReviewRow[]): HTMLElement {
       },
     ],
     rows,
+    // A large history's table is drawn a page at a time; the CSV download has every row.
+    { pageSize: testsTablePageSize },
   );
   return el(
     "div",
