@@ -8,9 +8,12 @@ import { existsSync } from "node:fs";
 import { readFile } from "node:fs/promises";
 import { type Browser, type BrowserContext, chromium, type Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
+import { issueToken } from "../../src/api/tokens.ts";
+import { generateDemo } from "../../src/demo/generate-demo.ts";
 import { loadDemoWorkspace } from "../../src/demo/load-demo.ts";
 import { type RunningServer, startServer } from "../../src/server.ts";
 import { createTestDb } from "../helpers/db.ts";
+import { seedHistory } from "../review/seed-history.ts";
 
 const chromiumPath = process.env.PLUMBLINE_CHROMIUM ?? "/usr/bin/chromium";
 
@@ -317,6 +320,52 @@ describe("plumbline's pages in a real browser", () => {
     expect(problems).toEqual([]);
     await page.close();
   }, 60_000);
+
+  it("program review: a large history's table is drawn a thousand rows at a time, sorting every row", async () => {
+    // A second workspace with more tests in a family than one page of the table.
+    const { workspaceId } = await seedHistory(
+      handle.db,
+      "larchmont",
+      generateDemo({ seed: 12, experiments: 2600 }).truth.experiments,
+    );
+    const large = (await issueToken(handle.db, { workspaceId, role: "read" })).token;
+    const largeContext = await browser.newContext({ viewport: { width: 1400, height: 1000 } });
+    await largeContext.addInitScript(
+      ([value]) => {
+        sessionStorage.setItem("plumbline.token", value ?? "");
+        sessionStorage.setItem("plumbline.workspace", "larchmont");
+      },
+      [large],
+    );
+    try {
+      const { page, problems } = await openPage("/app/review", largeContext);
+      await page.waitForSelector('[data-figure="false-discovery-rate"]', { timeout: 60_000 });
+      const response = await fetch(`${server.url}/api/v1/review/tests`, {
+        headers: { Authorization: `Bearer ${large}` },
+      });
+      const all = (await response.json()) as {
+        count: number;
+        tests: { key: string; probabilityRealWin: number }[];
+      };
+      expect(all.count).toBeGreaterThan(1000);
+      const table = page.locator(".table-scroll table.data").last();
+      expect(await table.locator("tbody tr").count()).toBe(1000);
+      const total = all.count.toLocaleString("en-US");
+      expect(await table.locator("tfoot").textContent()).toContain(`1,000 of ${total} rows shown`);
+      await page.getByRole("button", { name: /^Show [\d,]+ more$/ }).click();
+      expect(await table.locator("tbody tr").count()).toBe(Math.min(2000, all.count));
+      // Sorting orders every row, not only those drawn, and draws the first page again.
+      await page.getByRole("button", { name: "P(real win)" }).click();
+      await expect.poll(() => table.locator("tbody tr").count()).toBe(1000);
+      const best = Math.max(...all.tests.map((test) => test.probabilityRealWin));
+      const firstKey = await table.locator("tbody tr").first().locator("th").textContent();
+      expect(all.tests.find((test) => test.key === firstKey)?.probabilityRealWin).toBe(best);
+      expect(problems).toEqual([]);
+      await page.close();
+    } finally {
+      await largeContext.close();
+    }
+  }, 120_000);
 
   it("program review: the API's refusal of an unknown family is shown as it was given", async () => {
     const { page, problems } = await openPage("/app/review?family=no-such-family");
