@@ -7,7 +7,7 @@
  * data fits nothing, and a per-test table asked for after its summary only recomputes the review.
  */
 
-import { bootstrapPrior } from "../stats/bootstrap-prior.ts";
+import { drawResample, refitResample } from "../stats/bootstrap-prior.ts";
 import type { EffectPrior } from "../stats/effect-prior.ts";
 import {
   defaultNullWeight,
@@ -23,6 +23,7 @@ import {
 } from "../stats/fit-effect-prior.ts";
 import { type LikelihoodMatrix, likelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { thetaGridComponents } from "../stats/prior-grid.ts";
+import { createRandom } from "../stats/random.ts";
 import { helperThread, sharedFloat64 } from "../threads/helper-thread.ts";
 import { coarseGridOnHelper, refitsOnThreads } from "../threads/refit-threads.ts";
 import { yieldToEventLoop } from "./yield-to-event-loop.ts";
@@ -157,15 +158,37 @@ export async function fitReviewPriors(
           bootstrapSeed,
           onRefit,
         )
-      : bootstrapPrior(observations, fit, {
-          replicates: refitCount,
-          seed: bootstrapSeed,
-          onProgress: onRefit,
-        }).priors;
+      : await refitsOnThisThread(observations, fit, refitCount, bootstrapSeed, onRefit);
   }
   if (gridRowCoarse) alternatives.push(await coarseGridAlternative());
   if (settings.priorFamily === "auto" && coarseGrid) fit = { ...fit, alternatives };
   return { fit, alternatives, bootstrapPriors, gridRowCoarse, lowered };
+}
+
+/**
+ * The refits of bootstrapPrior: the same resamples drawn in turn from the same seed and refitted in
+ * the same order, so the same priors; it pauses every ten refits, so that a review run's progress
+ * polls are answered while a history too small for the helper thread is refitted.
+ */
+async function refitsOnThisThread(
+  observations: readonly Observation[],
+  fit: PriorFit,
+  replicates: number,
+  seed: number,
+  onRefit: (done: number, total: number) => void,
+): Promise<EffectPrior[]> {
+  const data = observationColumns(observations);
+  const count = data.y.length;
+  const matrix = likelihoodMatrix(data.y, data.s, fit.grid);
+  const random = createRandom(seed);
+  const counts = new Int32Array(count);
+  const priors: EffectPrior[] = [];
+  for (let b = 0; b < replicates; b++) {
+    priors.push(refitResample(matrix, fit, drawResample(count, random, counts)).prior);
+    onRefit(b + 1, replicates);
+    if ((b + 1) % 10 === 0 && b + 1 < replicates) await yieldToEventLoop();
+  }
+  return priors;
 }
 
 /**

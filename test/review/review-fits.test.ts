@@ -51,4 +51,21 @@ describe("fits of a large history for the review", () => {
     expect(fits.gridRowCoarse).toBe(true);
     expect(fits.lowered).toBe(false);
   }, 120_000);
+
+  it("below the helper's size, the refits (which pause for polls) are bootstrapPrior's", async () => {
+    const small = observations.slice(0, 3000);
+    const seed = 5;
+    const progress: string[] = [];
+    const fits = await fitReviewPriors(
+      small,
+      { nullWeight: null, priorFamily: "symmetric", bootstrap: 25, bootstrapAsked: true, seed },
+      (message) => progress.push(message),
+    );
+    const chosen = fitEffectPrior(small, { family: "symmetric" });
+    expect(fits.bootstrapPriors).toEqual(
+      bootstrapPrior(small, chosen, { replicates: 25, seed: seed + 7919 }).priors,
+    );
+    expect(progress).toContain("bootstrap refit 20 of 25");
+    expect(progress.at(-1)).toBe("bootstrap refit 25 of 25");
+  }, 120_000);
 });
