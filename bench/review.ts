@@ -184,6 +184,8 @@ export async function runReviewBench(): Promise<object> {
         polls: pollTimes.length,
         pollSecondsMedian: pollTimes.length > 0 ? median(pollTimes) : null,
         pollSecondsMax: pollTimes.length > 0 ? Math.max(...pollTimes) : null,
+        pollTimesNote:
+          "this client shares the server's process, so a poll is sent only when the review lets the thread go: these times do not show how long a poll from another process waits",
         stages: polled.stages,
       };
 
