@@ -431,7 +431,8 @@ function fileStem(query: URLSearchParams): string {
   return parts.join("-").replace(/[^A-Za-z0-9_-]+/g, "_");
 }
 
-function downloads(query: URLSearchParams): HTMLElement {
+/** The downloads ask with the review's own settings (so they read its cache); `named` names the files. */
+function downloads(query: URLSearchParams, named: URLSearchParams): HTMLElement {
   const status = el("span", { "aria-live": "polite", class: "muted" });
   const button = (label: string, path: string, name: string) =>
     el(
@@ -460,8 +461,8 @@ function downloads(query: URLSearchParams): HTMLElement {
   return el(
     "div",
     { class: "downloads" },
-    button("Download the report (HTML)", `/api/v1/review/report?${query}`, `${fileStem(query)}.html`),
-    button("Download the per-test table (CSV)", `/api/v1/review/tests?${csvQuery}`, `${fileStem(query)}.csv`),
+    button("Download the report (HTML)", `/api/v1/review/report?${query}`, `${fileStem(named)}.html`),
+    button("Download the per-test table (CSV)", `/api/v1/review/tests?${csvQuery}`, `${fileStem(named)}.csv`),
     status,
   );
 }
@@ -628,8 +629,9 @@ startPage(async (root) => {
         fillChoices();
         // The table with the run's own settings: the run cached it under them.
         const tests = await apiJson<ReviewTests>(`/api/v1/review/tests?${query}`);
-        // Pin the family the server chose, so that the downloads are of the same one.
-        if (!query.has("family")) query.set("family", review.metricFamily);
+        // The files are named after the family the server chose.
+        const named = new URLSearchParams(query);
+        if (!named.has("family")) named.set("family", review.metricFamily);
         const scope = [
           `Metric family ${review.metricFamily}`,
           query.get("team") ? `team ${query.get("team")}` : "all teams",
@@ -648,7 +650,7 @@ startPage(async (root) => {
               `${scope}. Prior: ${review.prior.family} family, ${formatPercent(review.prior.nullShare)} of true effects at zero, typical real win ${formatSignedPercent(review.prior.typicalRealWin)}. ${formatInteger(review.counts.leftOut.total)} tests left out (${formatInteger(review.counts.leftOut.aa)} A/A, ${formatInteger(review.counts.leftOut.sampleRatioMismatch)} sample ratio mismatch).`,
             ),
             headline(review),
-            downloads(query),
+            downloads(query, named),
             el("h2", {}, "Charts"),
             charts(review, tests.tests),
             el("h2", {}, "How much the prior family matters"),
