@@ -1,11 +1,11 @@
 /**
  * Prepares the default review of workspaces whose history changed, in the background of the
  * server, so that the review page opens from the cache after an import instead of computing for
- * seconds. Every `intervalMilliseconds` it reads the data versions (one small query); a workspace
- * whose version has held still for a whole interval after changing (imports arrive in batches, and
- * the CLI's imports are seen as well as the API's) gets its default review, the summary and the
- * per-test table as the review page asks for them, through the server's run registry, so that a
- * request arriving meanwhile joins the run. One workspace at a time, and never two checks at once.
+ * seconds. Every `intervalMilliseconds` it reads the data versions (one small query); at the first
+ * check every workspace's version, and later a version that has held still for a whole interval
+ * after changing (imports arrive in batches; the CLI's imports are seen as well as the API's), gets
+ * its default review, the summary and the per-test table as the review page asks for them, through
+ * the server's run registry, so that a request arriving meanwhile joins the run. One workspace at a time, and never two checks at once.
  */
 import type { Database } from "../db/client.ts";
 import { dataVersions } from "../db/schema.ts";
@@ -52,9 +52,12 @@ export function startReviewPreparer(options: {
     const rows = await db
       .select({ workspaceId: dataVersions.workspaceId, version: dataVersions.version })
       .from(dataVersions);
+    const firstCheck = seen.size === 0;
     for (const { workspaceId, version } of rows) {
       if (stopped) return;
-      const still = seen.get(workspaceId) === version;
+      // At the first check (the server just started) no import is under way: every version counts
+      // as still, and a review already cached is only looked up.
+      const still = firstCheck || seen.get(workspaceId) === version;
       seen.set(workspaceId, version);
       if (still && prepared.get(workspaceId) !== version) await prepare(workspaceId, version);
     }
