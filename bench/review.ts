@@ -106,6 +106,9 @@ export async function runReviewBench(): Promise<object> {
     const app = createApp({ db }, { logError: () => undefined, reviewRuns });
     const server = serve({ fetch: app.fetch, port: 0, hostname: "127.0.0.1" });
     await new Promise<void>((resolve) => server.once("listening", () => resolve()));
+    // The client's idle connection must not be closed by the server while the bench waits for a
+    // background preparation (a close racing the next request resets it): the client closes first.
+    (server as import("node:http").Server).keepAliveTimeout = 60_000;
     const port = (server.address() as AddressInfo).port;
     const base = `http://127.0.0.1:${port}`;
     const headers = { authorization: `Bearer ${token}` };
