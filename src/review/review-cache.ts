@@ -33,6 +33,11 @@ export function reviewCacheKey(workspaceId: number, settings: unknown, dataVersi
     .digest("hex");
 }
 
+/** The key of a review's per-test table (cache_key is the table's primary key: it gets its own). */
+export function testsCacheKey(reviewKey: string): string {
+  return `${reviewKey}:tests`;
+}
+
 /**
  * The key of a review's prior fits (review-fits.ts): the workspace, the SHA-256 fingerprint of the
  * family's rows (every field the fits read is in it) and the fit settings; not the data version,

@@ -7,7 +7,6 @@
  * data fits nothing, and a per-test table asked for after its summary only recomputes the review.
  */
 
-import { drawResample, refitResample } from "../stats/bootstrap-prior.ts";
 import type { EffectPrior } from "../stats/effect-prior.ts";
 import {
   defaultNullWeight,
@@ -23,10 +22,9 @@ import {
 } from "../stats/fit-effect-prior.ts";
 import { type LikelihoodMatrix, likelihoodMatrix } from "../stats/likelihood-matrix.ts";
 import { thetaGridComponents } from "../stats/prior-grid.ts";
-import { createRandom } from "../stats/random.ts";
 import { helperThread, sharedFloat64 } from "../threads/helper-thread.ts";
 import { coarseGridOnHelper, refitsOnThreads } from "../threads/refit-threads.ts";
-import { yieldToEventLoop } from "./yield-to-event-loop.ts";
+import { pauseForRequests } from "./pause-for-requests.ts";
 
 export const defaultBootstrapRefits = 100;
 
@@ -118,7 +116,7 @@ export async function fitReviewPriors(
     // The rule of fitEffectPrior's "auto": the better of symmetric and skewed by log-likelihood.
     const symmetric = fitOnSharedMatrix(columns, y, s, "symmetric", nullWeight);
     progress("fitting the skewed family (the symmetric one is fitted)");
-    await yieldToEventLoop();
+    await pauseForRequests();
     const skewed = fitOnSharedMatrix(columns, y, s, "skewed", nullWeight);
     const chosen = skewed.fit.logLik > symmetric.fit.logLik ? skewed : symmetric;
     fit = chosen.fit;
@@ -148,47 +146,20 @@ export async function fitReviewPriors(
   let bootstrapPriors: readonly EffectPrior[] = [];
   if (refitCount > 0) {
     progress(`refitting the prior to ${refitCount} bootstrap resamples`);
-    await yieldToEventLoop();
-    bootstrapPriors = helper
-      ? await refitsOnThreads(
-          helper,
-          fit,
-          sharedMatrix ?? likelihoodMatrix(y, s, fit.grid, { shared: true }),
-          refitCount,
-          bootstrapSeed,
-          onRefit,
-        )
-      : await refitsOnThisThread(observations, fit, refitCount, bootstrapSeed, onRefit);
+    await pauseForRequests();
+    // Without the helper (a smaller history) every refit is done here, pausing between refits.
+    bootstrapPriors = await refitsOnThreads(
+      helper,
+      fit,
+      sharedMatrix ?? likelihoodMatrix(y, s, fit.grid, { shared: helper !== null }),
+      refitCount,
+      bootstrapSeed,
+      onRefit,
+    );
   }
   if (gridRowCoarse) alternatives.push(await coarseGridAlternative());
   if (settings.priorFamily === "auto" && coarseGrid) fit = { ...fit, alternatives };
   return { fit, alternatives, bootstrapPriors, gridRowCoarse, lowered };
-}
-
-/**
- * The refits of bootstrapPrior: the same resamples drawn in turn from the same seed and refitted in
- * the same order, so the same priors; it pauses every ten refits, so that a review run's progress
- * polls are answered while a history too small for the helper thread is refitted.
- */
-async function refitsOnThisThread(
-  observations: readonly Observation[],
-  fit: PriorFit,
-  replicates: number,
-  seed: number,
-  onRefit: (done: number, total: number) => void,
-): Promise<EffectPrior[]> {
-  const data = observationColumns(observations);
-  const count = data.y.length;
-  const matrix = likelihoodMatrix(data.y, data.s, fit.grid);
-  const random = createRandom(seed);
-  const counts = new Int32Array(count);
-  const priors: EffectPrior[] = [];
-  for (let b = 0; b < replicates; b++) {
-    priors.push(refitResample(matrix, fit, drawResample(count, random, counts)).prior);
-    onRefit(b + 1, replicates);
-    if ((b + 1) % 10 === 0 && b + 1 < replicates) await yieldToEventLoop();
-  }
-  return priors;
 }
 
 /**

@@ -8,6 +8,7 @@
  */
 import { randomUUID } from "node:crypto";
 import type { Database } from "../db/client.ts";
+import { testsCacheKey } from "./review-cache.ts";
 import {
   cachedReview,
   type ReviewOutcome,
@@ -192,7 +193,7 @@ export class ReviewRuns {
 }
 
 function runningKey(cacheKey: string, includeTests: boolean): string {
-  return includeTests ? `${cacheKey}:tests` : cacheKey;
+  return includeTests ? testsCacheKey(cacheKey) : cacheKey;
 }
 
 /**

@@ -12,6 +12,7 @@ import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/
 import { createRandom } from "../stats/random.ts";
 import { posteriorColumnsOnThreadsNow } from "../threads/posterior-threads.ts";
 import { posteriorSumsOnThreads } from "../threads/sums-threads.ts";
+import { pauseForRequests } from "./pause-for-requests.ts";
 import { readReviewData } from "./read-review-data.ts";
 import {
   cacheHas,
@@ -23,6 +24,7 @@ import {
   reviewFitsCacheKind,
   reviewTestsCacheKind,
   storedDataVersion,
+  testsCacheKey,
   writeCache,
 } from "./review-cache.ts";
 import { type ReviewFilters, resolveFilters } from "./review-filters.ts";
@@ -37,7 +39,6 @@ import {
   largeHistoryTests,
   type ReviewFits,
 } from "./review-fits.ts";
-import { yieldToEventLoop } from "./yield-to-event-loop.ts";
 
 export interface ReviewRequest {
   readonly filters?: ReviewFilters;
@@ -147,8 +148,7 @@ export async function cachedReview(
   const summary = await readCache<ReviewSummary>(db, cacheKey, reviewCacheKind);
   if (!summary) return null;
   if (!includeTests) return { summary, tests: null, cached: true, cacheKey };
-  // cache_key is the table's primary key: the per-test table gets its own key.
-  const testsKey = `${cacheKey}:tests`;
+  const testsKey = testsCacheKey(cacheKey);
   if (options.readTable === false)
     return (await cacheHas(db, testsKey, reviewTestsCacheKind))
       ? { summary, tests: null, cached: true, cacheKey }
@@ -166,7 +166,6 @@ export async function runReview(
   const identity = await reviewIdentity(db, workspaceId, request);
   const { settings, bootstrapAsked, cacheKey } = identity;
   const progress = options.onProgress ?? (() => undefined);
-  const testsCacheKey = `${cacheKey}:tests`;
   const cached = await cachedReview(db, identity, options.includeTests ?? false);
   if (cached) return cached;
 
@@ -196,7 +195,7 @@ export async function runReview(
     fits = fitsFromJson(cachedFits);
   } else {
     progress(`fitting the prior to ${included.length} tests of "${data.family}"`);
-    await yieldToEventLoop();
+    await pauseForRequests();
     fits = await fitReviewPriors(observations, fitSettings, progress);
     await writeCache(db, workspaceId, [
       { cacheKey: fitsKey, kind: reviewFitsCacheKind, json: fitsToJson(fits) },
@@ -204,7 +203,7 @@ export async function runReview(
   }
   const { fit, alternatives, bootstrapPriors, gridRowCoarse, lowered } = fits;
   progress("computing the review");
-  await yieldToEventLoop();
+  await pauseForRequests();
   const review = programReview({
     tests: data.reviewedTests,
     fit,
@@ -251,7 +250,9 @@ export async function runReview(
   const testsJson = options.includeTests ? JSON.stringify(tests) : null;
   await writeCache(db, workspaceId, [
     { cacheKey, kind: reviewCacheKind, json: summaryJson },
-    ...(testsJson !== null ? [{ cacheKey: testsCacheKey, kind: reviewTestsCacheKind, json: testsJson }] : []),
+    ...(testsJson !== null
+      ? [{ cacheKey: testsCacheKey(cacheKey), kind: reviewTestsCacheKind, json: testsJson }]
+      : []),
   ]);
   return {
     summary: JSON.parse(summaryJson) as ReviewSummary,

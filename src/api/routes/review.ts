@@ -255,25 +255,26 @@ function toRequest(query: ReviewQuery): ReviewRequest {
   };
 }
 
-function mapReviewError(error: unknown): never {
+/** The API error a review error answers with, or null for an error the app handles itself. */
+function reviewApiError(error: unknown): ApiError | null {
   if (error instanceof ReviewDataError || error instanceof RangeError)
-    throw new ApiError(422, "unprocessable", error.message);
+    return new ApiError(422, "unprocessable", error.message);
   if (error instanceof SavedReviewError) {
-    if (error.reason === "exists") throw new ApiError(409, "conflict", error.message);
-    if (error.reason === "not_found") throw new ApiError(404, "not_found", error.message);
-    throw new ApiError(400, "validation_failed", error.message, [{ path: "label", message: error.message }]);
+    if (error.reason === "exists") return new ApiError(409, "conflict", error.message);
+    if (error.reason === "not_found") return new ApiError(404, "not_found", error.message);
+    return new ApiError(400, "validation_failed", error.message, [{ path: "label", message: error.message }]);
   }
-  throw error;
+  return null;
+}
+
+function mapReviewError(error: unknown): never {
+  throw reviewApiError(error) ?? error;
 }
 
 /** What a failed run reports: the status and envelope the same request would have answered with. */
 function runError(error: unknown, logError: (message: string, error: unknown) => void): ReviewRunError {
-  try {
-    mapReviewError(error);
-  } catch (mapped) {
-    if (mapped instanceof ApiError)
-      return { status: mapped.status, code: mapped.code, message: mapped.message };
-  }
+  const mapped = reviewApiError(error);
+  if (mapped) return { status: mapped.status, code: mapped.code, message: mapped.message };
   if (error instanceof StatsInputError) return { status: 422, code: "unprocessable", message: error.message };
   logError("plumbline: unexpected error in a review run", error);
   return { status: 500, code: "internal", message: "internal error in the review run; see the server's log" };
