@@ -1,14 +1,14 @@
 /**
  * Reads a workspace's stored history for a review: the primary results of one metric family,
  * with their experiments and any realized measurement, and a fingerprint of exactly what was read
- * (SHA-256 over the rows in id order), so that a cached or saved review can say which data it saw.
+ * (SHA-256 over the text of the rows read, in id order), so that a cached or saved review can say which data it saw.
  */
 import { createHash } from "node:crypto";
 import { and, asc, eq, sql } from "drizzle-orm";
 import type { Database } from "../db/client.ts";
 import { experiments, metrics, realizedMeasurements, results } from "../db/schema.ts";
 import type { ReviewTest } from "../stats/program-review.ts";
-import { matchesFilters, quarterOf, type ReviewFilters, testDate } from "./review-filters.ts";
+import { matchesFilters, quarterOf, type ReviewFilters } from "./review-filters.ts";
 
 export interface ReviewData {
   readonly family: string;
@@ -54,22 +54,26 @@ export async function readReviewData(
       `no primary results in metric family "${filters.family}"; families: ${families.map((row) => row.family).join(", ")}`,
     );
   }
-  const rows = await readFamilyRows(db, workspaceId, family);
-  const realizedRows = await db
-    .select({
-      id: realizedMeasurements.id,
-      experimentId: realizedMeasurements.experimentId,
-      metricId: realizedMeasurements.metricId,
-      estimate: realizedMeasurements.estimate,
-      standardError: realizedMeasurements.standardError,
-      method: realizedMeasurements.method,
-    })
-    .from(realizedMeasurements)
-    .innerJoin(metrics, eq(realizedMeasurements.metricId, metrics.id))
-    .where(and(eq(metrics.workspaceId, workspaceId), eq(metrics.family, family)))
-    .orderBy(asc(realizedMeasurements.id));
-  const realizedByResult = new Map<string, (typeof realizedRows)[number]>();
-  for (const row of realizedRows) {
+  const rowsText = await readFamilyRowsText(db, workspaceId, family);
+  const realizedText = await readRealizedText(db, workspaceId, family);
+  // The fingerprint covers the family and exactly the text read: every field the review uses, in
+  // result id order (the rows' JSON as SQLite renders it, reals at 17 significant digits).
+  const fingerprint = createHash("sha256")
+    .update(`family:${family}\n`)
+    .update(rowsText)
+    .update("\n")
+    .update(realizedText)
+    .digest("hex");
+
+  const realizedByResult = new Map<string, RealizedRow>();
+  for (const cells of JSON.parse(realizedText) as unknown[][]) {
+    const row: RealizedRow = {
+      experimentId: cells[0] as number,
+      metricId: cells[1] as number,
+      estimate: storedReal(cells[2]),
+      standardError: storedReal(cells[3]),
+      method: cells[4] as string,
+    };
     const key = `${row.experimentId}:${row.metricId}`;
     const current = realizedByResult.get(key);
     if (!current || (methodPreference[row.method] ?? 9) < (methodPreference[current.method] ?? 9)) {
@@ -77,98 +81,82 @@ export async function readReviewData(
     }
   }
 
-  const hash = createHash("sha256");
-  hash.update(`family:${family}\n`);
   const familyTests: ReviewTest[] = [];
   const reviewedTests: ReviewTest[] = [];
-  for (const row of rows) {
-    const realized = realizedByResult.get(`${row.experimentId}:${row.metricId}`) ?? null;
-    const date = testDate(row);
+  const filtered = filters.team !== undefined || filters.from !== undefined || filters.to !== undefined;
+  // One pass over the parsed rows (cells in the order of readFamilyRowsText's json_array).
+  for (const cells of JSON.parse(rowsText) as unknown[][]) {
+    const realized =
+      realizedByResult.size > 0 ? (realizedByResult.get(`${cells[11]}:${cells[12]}`) ?? null) : null;
+    const team = cells[6] as string | null;
+    const date = cells[7] as string | null;
     const test: ReviewTest = {
-      key: row.key,
-      name: row.name,
-      team: row.team,
+      key: cells[4] as string,
+      name: cells[5] as string,
+      team,
       quarter: quarterOf(date),
-      decision: row.decision,
-      y: row.lift,
-      s: row.liftSe,
-      isAa: row.isAa,
-      sampleRatioMismatch: row.srmFlagged,
-      stoppedEarly: row.stoppedEarly,
+      decision: cells[8] as ReviewTest["decision"],
+      y: storedReal(cells[1]),
+      s: storedReal(cells[2]),
+      isAa: cells[9] === 1,
+      sampleRatioMismatch: cells[3] === 1,
+      stoppedEarly: cells[10] === 1,
       realized: realized
         ? { estimate: realized.estimate, standardError: realized.standardError, method: realized.method }
         : null,
     };
-    // Every field the review uses goes into the fingerprint, in a fixed order.
-    hash.update(
-      `${row.resultId}\t${row.key}\t${row.name}\t${row.team ?? ""}\t${date ?? ""}\t${row.decision}\t${row.lift}\t${row.liftSe}\t${row.isAa ? 1 : 0}\t${row.srmFlagged ? 1 : 0}\t${row.stoppedEarly ? 1 : 0}\t${realized ? `${realized.id}:${realized.estimate}:${realized.standardError}:${realized.method}` : ""}\n`,
-    );
     familyTests.push(test);
-    if (matchesFilters({ team: row.team, date }, filters)) reviewedTests.push(test);
+    if (!filtered || matchesFilters({ team, date }, filters)) reviewedTests.push(test);
   }
-  return { family, families, familyTests, reviewedTests, fingerprint: hash.digest("hex") };
+  return { family, families, familyTests, reviewedTests, fingerprint };
 }
 
-interface FamilyRow {
-  readonly resultId: number;
-  readonly lift: number;
-  readonly liftSe: number;
-  readonly srmFlagged: boolean;
-  readonly key: string;
-  readonly name: string;
-  readonly team: string | null;
-  readonly startedOn: string | null;
-  readonly endedOn: string | null;
-  readonly decidedOn: string | null;
-  readonly decision: ReviewTest["decision"];
-  readonly isAa: boolean;
-  readonly stoppedEarly: boolean;
+interface RealizedRow {
   readonly experimentId: number;
   readonly metricId: number;
+  readonly estimate: number;
+  readonly standardError: number;
+  readonly method: string;
 }
 
 /**
- * The family's primary results with their experiments, in result id order. SQLite builds one JSON
- * array of all rows, which is parsed at once: a row at a time through the driver costs several
- * times more for a large history. Reals go through printf('%!.17g'): 17 significant digits give
- * back the very same double (the '!' flag lifts SQLite's usual 15-digit limit), where JSON's own
- * rendering of a real would round it.
+ * The family's primary results with their experiments as one JSON array text, in result id
+ * order: SQLite builds it and it is parsed at once (a row at a time through the driver costs
+ * several times more for a large history), and the same text is fingerprinted. Each row is
+ * [result id, lift, lift SE, SRM flag, key, name, team, date, decision, A/A, stopped early,
+ * experiment id, metric id], the date being testDate's (decided, else ended, else started). Reals
+ * go through printf('%!.17g'): 17 significant digits give back the very same double (the '!' flag
+ * lifts SQLite's usual 15-digit limit), where JSON's own rendering of a real would round it.
  */
-async function readFamilyRows(db: Database, workspaceId: number, family: string): Promise<FamilyRow[]> {
+async function readFamilyRowsText(db: Database, workspaceId: number, family: string): Promise<string> {
   const [answer] = await db.all<{ rows: string | null }>(sql`
     select json_group_array(json_array(
       ${results.id}, printf('%!.17g', ${results.lift}), printf('%!.17g', ${results.liftSe}),
       ${results.srmFlagged}, ${experiments.key}, ${experiments.name}, ${experiments.team},
-      ${experiments.startedOn}, ${experiments.endedOn}, ${experiments.decidedOn},
+      coalesce(${experiments.decidedOn}, ${experiments.endedOn}, ${experiments.startedOn}),
       ${experiments.decision}, ${experiments.isAa}, ${experiments.stoppedEarly},
       ${experiments.id}, ${metrics.id}
-    )) as rows
+    ) order by ${results.id}) as rows
     from ${results}
     inner join ${experiments} on ${results.experimentId} = ${experiments.id}
     inner join ${metrics} on ${results.metricId} = ${metrics.id}
     where ${metrics.workspaceId} = ${workspaceId} and ${metrics.family} = ${family}
       and ${results.isPrimary} = 1`);
-  const parsed = JSON.parse(answer?.rows ?? "[]") as unknown[][];
-  const rows = parsed.map(
-    (cells): FamilyRow => ({
-      resultId: cells[0] as number,
-      lift: storedReal(cells[1]),
-      liftSe: storedReal(cells[2]),
-      srmFlagged: cells[3] === 1,
-      key: cells[4] as string,
-      name: cells[5] as string,
-      team: cells[6] as string | null,
-      startedOn: cells[7] as string | null,
-      endedOn: cells[8] as string | null,
-      decidedOn: cells[9] as string | null,
-      decision: cells[10] as ReviewTest["decision"],
-      isAa: cells[11] === 1,
-      stoppedEarly: cells[12] === 1,
-      experimentId: cells[13] as number,
-      metricId: cells[14] as number,
-    }),
-  );
-  return rows.sort((a, b) => a.resultId - b.resultId);
+  return answer?.rows ?? "[]";
+}
+
+/** The family's realized measurements, [experiment id, metric id, estimate, SE, method], by id. */
+async function readRealizedText(db: Database, workspaceId: number, family: string): Promise<string> {
+  const [answer] = await db.all<{ rows: string | null }>(sql`
+    select json_group_array(json_array(
+      ${realizedMeasurements.experimentId}, ${realizedMeasurements.metricId},
+      printf('%!.17g', ${realizedMeasurements.estimate}),
+      printf('%!.17g', ${realizedMeasurements.standardError}), ${realizedMeasurements.method}
+    ) order by ${realizedMeasurements.id}) as rows
+    from ${realizedMeasurements}
+    inner join ${metrics} on ${realizedMeasurements.metricId} = ${metrics.id}
+    where ${metrics.workspaceId} = ${workspaceId} and ${metrics.family} = ${family}`);
+  return answer?.rows ?? "[]";
 }
 
 /** A real as printed by SQLite's printf('%!.17g'), back to the double it was. */
