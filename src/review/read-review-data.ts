@@ -32,11 +32,11 @@ export class ReviewDataError extends Error {
 // Realized measurements: a holdout is the cleanest read of a shipped change, then a re-test.
 const methodPreference: Record<string, number> = { holdout: 0, retest: 1, post_launch: 2 };
 
-export async function readReviewData(
+/** Every metric family with primary results in the workspace, with its count, by name. */
+export async function readFamilyCounts(
   db: Database,
   workspaceId: number,
-  filters: ReviewFilters,
-): Promise<ReviewData> {
+): Promise<{ readonly family: string; readonly tests: number }[]> {
   const familyCounts = await db
     .select({ family: metrics.family, tests: sql<number>`count(*)` })
     .from(results)
@@ -44,11 +44,24 @@ export async function readReviewData(
     .where(and(eq(metrics.workspaceId, workspaceId), eq(results.isPrimary, true)))
     .groupBy(metrics.family)
     .orderBy(asc(metrics.family));
-  const families = familyCounts.map((row) => ({ family: row.family, tests: Number(row.tests) }));
+  return familyCounts.map((row) => ({ family: row.family, tests: Number(row.tests) }));
+}
+
+/** The family a review without a family filter covers: the one with most primary results. */
+export function defaultReviewFamily(
+  families: readonly { readonly family: string; readonly tests: number }[],
+): string | undefined {
+  return [...families].sort((a, b) => b.tests - a.tests || a.family.localeCompare(b.family))[0]?.family;
+}
+
+export async function readReviewData(
+  db: Database,
+  workspaceId: number,
+  filters: ReviewFilters,
+): Promise<ReviewData> {
+  const families = await readFamilyCounts(db, workspaceId);
   if (families.length === 0) throw new ReviewDataError("the workspace has no primary results to review");
-  const family =
-    filters.family ??
-    [...families].sort((a, b) => b.tests - a.tests || a.family.localeCompare(b.family))[0]?.family;
+  const family = filters.family ?? defaultReviewFamily(families);
   if (!family || !families.some((row) => row.family === family)) {
     throw new ReviewDataError(
       `no primary results in metric family "${filters.family}"; families: ${families.map((row) => row.family).join(", ")}`,

@@ -1,18 +1,34 @@
 /**
- * Prepares the default review of workspaces whose history changed, in the background of the
- * server, so that the review page opens from the cache after an import instead of computing for
- * seconds. Every `intervalMilliseconds` it reads the data versions (one small query); at the first
+ * Prepares the default review of every metric family of workspaces whose history changed, in the
+ * background of the server, so that the review page opens from the cache after an import instead
+ * of computing for seconds, for whichever family it shows; and since a review's prior fits are
+ * cached apart (review-fits.ts), a review of one team, one quarter or other thresholds then fits
+ * nothing and only computes the review itself. Every `intervalMilliseconds` it reads the data versions (one small query); at the first
  * check every workspace's version, and later a version that has held still for a whole interval
  * after changing (imports arrive in batches; the CLI's imports are seen as well as the API's), gets
- * its default review, the summary and the per-test table as the review page asks for them, through
+ * the default review of each family (the family with most tests first, as the page opens on it), the
+ * summary and the per-test table as the review page asks for them, through
  * the server's run registry, so that a request arriving meanwhile joins the run. One workspace at a time, and never two checks at once.
  */
 import type { Database } from "../db/client.ts";
 import { dataVersions } from "../db/schema.ts";
+import { defaultReviewFamily, readFamilyCounts } from "./read-review-data.ts";
 import { type ReviewRuns, startReviewRun } from "./review-runs.ts";
+import type { ReviewRequest } from "./run-review.ts";
 
-/** The settings the review page starts with (no filters, every default). */
-const defaultRequest = {};
+/**
+ * What the review page asks for: no settings (it opens on the family with most tests), then each
+ * family by name (its family menu). The unnamed and the named default family are two cache
+ * entries; the second one reuses the first one's prior fits.
+ */
+async function preparedRequests(db: Database, workspaceId: number): Promise<ReviewRequest[]> {
+  const families = await readFamilyCounts(db, workspaceId);
+  const first = defaultReviewFamily(families);
+  const byName = families.map((row): ReviewRequest => ({ filters: { family: row.family } }));
+  // The page's first family first, then the others by name.
+  byName.sort((a, b) => Number(b.filters?.family === first) - Number(a.filters?.family === first));
+  return [{}, ...byName];
+}
 
 export interface ReviewPreparer {
   /** One check now (what the timer does); resolves when its preparations are done. */
@@ -24,8 +40,11 @@ export function startReviewPreparer(options: {
   readonly db: Database;
   readonly runs: ReviewRuns;
   readonly intervalMilliseconds: number;
-  /** Called after each workspace's preparation, with the version prepared and whether it ran. */
-  readonly onPrepared?: (workspaceId: number, version: number, computed: boolean) => void;
+  /**
+   * Called after each workspace's preparation, with the version prepared, whether any review was
+   * computed (not found cached), and how many reviews (families) were prepared.
+   */
+  readonly onPrepared?: (workspaceId: number, version: number, computed: boolean, reviews: number) => void;
 }): ReviewPreparer {
   const { db, runs } = options;
   // The version seen at the previous check, and the version last prepared, per workspace.
@@ -36,16 +55,20 @@ export function startReviewPreparer(options: {
   let checking: Promise<void> | null = null;
 
   async function prepare(workspaceId: number, version: number): Promise<void> {
-    const started = await startReviewRun(db, runs, workspaceId, defaultRequest, true, {
-      readTable: false,
-    });
-    try {
-      await started.outcome;
-    } catch {
-      // A workspace with nothing to review fails its run; the run records why, for a poll.
+    const requests = await preparedRequests(db, workspaceId);
+    let computed = false;
+    for (const request of requests) {
+      if (stopped) return;
+      const started = await startReviewRun(db, runs, workspaceId, request, true, { readTable: false });
+      try {
+        await started.outcome;
+      } catch {
+        // A family with nothing to review fails its run; the run records why, for a poll.
+      }
+      if (started.run.cached === false && started.run.state === "ready") computed = true;
     }
     prepared.set(workspaceId, version);
-    options.onPrepared?.(workspaceId, version, started.run.cached === false && started.run.state === "ready");
+    options.onPrepared?.(workspaceId, version, computed, requests.length);
   }
 
   async function checkOnce(): Promise<void> {

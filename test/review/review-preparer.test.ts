@@ -1,13 +1,15 @@
 /**
- * The background preparer computes a workspace's default review at its first check and, after a
- * write, once the history has held still for a check, so that the review page's first request reads the cache; it prepares each version
- * once, and again after a write.
+ * The background preparer computes a workspace's default review of every metric family at its
+ * first check and, after a write, once the history has held still for a check, so that the review
+ * page's first request reads the cache whichever family it shows, and a review of one team fits no
+ * prior; it prepares each version once, and again after a write.
  */
 import { eq, sql } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { apiReviewRuns } from "../../src/api/routes/review.ts";
 import { experiments } from "../../src/db/schema.ts";
 import { generateDemo } from "../../src/demo/generate-demo.ts";
+import { readFamilyCounts } from "../../src/review/read-review-data.ts";
 import { startReviewPreparer } from "../../src/review/review-preparer.ts";
 import { startReviewRun } from "../../src/review/review-runs.ts";
 import { runReview } from "../../src/review/run-review.ts";
@@ -30,13 +32,13 @@ afterAll(() => handle.dispose());
 describe("startReviewPreparer", () => {
   it("prepares the default review at the first check, once a version, and after a write once it held still", async () => {
     const runs = apiReviewRuns(() => undefined);
-    const prepared: { version: number; computed: boolean }[] = [];
+    const prepared: { version: number; computed: boolean; reviews: number }[] = [];
     // A long interval: the test drives the checks itself.
     const preparer = startReviewPreparer({
       db: handle.db,
       runs,
       intervalMilliseconds: 3_600_000,
-      onPrepared: (_workspace, version, computed) => prepared.push({ version, computed }),
+      onPrepared: (_workspace, version, computed, reviews) => prepared.push({ version, computed, reviews }),
     });
     try {
       // The first check (a server just started) prepares at once.
@@ -48,6 +50,37 @@ describe("startReviewPreparer", () => {
       expect(page.run.state).toBe("ready");
       expect(page.run.cached).toBe(true);
       expect((await runReview(handle.db, workspaceId, {}, { includeTests: true })).cached).toBe(true);
+      // Every family: its review (as the page's family menu asks for it) is cached too.
+      const families = await readFamilyCounts(handle.db, workspaceId);
+      expect(families.length).toBeGreaterThan(1);
+      expect(prepared[0]?.reviews).toBe(families.length + 1);
+      for (const { family } of families) {
+        const review = await runReview(
+          handle.db,
+          workspaceId,
+          { filters: { family } },
+          { includeTests: true },
+        );
+        expect(review.cached).toBe(true);
+        expect(review.summary.metricFamily).toBe(family);
+      }
+      // A review of one team of a prepared family fits nothing: its prior fits are cached.
+      const family = families[0]?.family as string;
+      const [teamRow] = await handle.db
+        .select({ team: experiments.team })
+        .from(experiments)
+        .where(eq(experiments.workspaceId, workspaceId))
+        .limit(1);
+      const progress: string[] = [];
+      const byTeam = await runReview(
+        handle.db,
+        workspaceId,
+        { filters: { family, team: teamRow?.team as string } },
+        { onProgress: (message) => progress.push(message) },
+      );
+      expect(byTeam.cached).toBe(false);
+      expect(progress.some((message) => message.startsWith("reusing the prior"))).toBe(true);
+      expect(progress.some((message) => message.startsWith("fitting"))).toBe(false);
       await preparer.check();
       expect(prepared).toHaveLength(1);
 
