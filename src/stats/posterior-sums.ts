@@ -19,7 +19,7 @@
  */
 import { componentLogLikelihood } from "./component-likelihood.ts";
 import { DistinctValues } from "./distinct-values.ts";
-import { normalIntervalMass, normalTailsAtPoints } from "./distributions.ts";
+import { normalIntervalMass, normalLogPdf, normalTailsAtPoints } from "./distributions.ts";
 import type { EffectPrior, PriorComponent } from "./effect-prior.ts";
 import { requireFinite, requirePositive, StatsInputError } from "./errors.ts";
 import {
@@ -117,13 +117,34 @@ export function posteriorSumsUnderPriors(
   const { logLikelihood, likelihood, figures } = rows;
   const scratch = createComponentPosterior();
   const summary = createComponentSummary(thresholdCount);
+  // A point mass's figures do not depend on the result: they are written once, and per result only
+  // its log-likelihood is taken (componentLogLikelihood's formula, inline: the grid family has
+  // hundreds of them).
+  const pointAt = new Float64Array(k);
+  const isPoint = new Uint8Array(k);
+  for (let c = 0; c < k; c++) {
+    const component = shared[c] as PriorComponent;
+    if (component.kind !== "point") continue;
+    isPoint[c] = 1;
+    pointAt[c] = component.at;
+    summarizeComponent(component, 0, 1, thresholds, scratch, summary);
+    writeFigures(figures, c * stride, summary, thresholdCount);
+  }
 
   for (let i = 0; i < count; i++) {
     const yi = y[i] as number;
     const si = s[i] as number;
+    const pointSd = Math.sqrt(si * si);
+    const logPointSd = Math.log(pointSd);
     let largest = Number.NEGATIVE_INFINITY;
     if (uniforms.count > 0) uniforms.evaluate(yi, si);
     for (let c = 0; c < k; c++) {
+      if (isPoint[c] === 1) {
+        const value = normalLogPdf((yi - (pointAt[c] as number)) / pointSd) - logPointSd;
+        logLikelihood[c] = value;
+        if (value > largest) largest = value;
+        continue;
+      }
       if (uniforms.isUniform[c] === 1 && uniforms.summarize(c, yi, si, summary)) {
         logLikelihood[c] = uniforms.logLikelihood;
       } else {
@@ -132,12 +153,7 @@ export function posteriorSumsUnderPriors(
       }
       const value = logLikelihood[c] as number;
       if (value > largest) largest = value;
-      const offset = c * stride;
-      figures[offset + figureMean] = summary.mean;
-      figures[offset + figureNull] = summary.probNull;
-      figures[offset + figureNegative] = summary.probNegative;
-      figures[offset + figurePositive] = summary.probPositive;
-      for (let j = 0; j < thresholdCount; j++) figures[offset + firstAbove + j] = summary.above[j] as number;
+      writeFigures(figures, c * stride, summary, thresholdCount);
     }
     for (let c = 0; c < k; c++) likelihood[c] = Math.exp((logLikelihood[c] as number) - largest);
     addRowUnderPriors(rows);
@@ -169,6 +185,20 @@ interface RowState {
   readonly sums: readonly Float64Array[];
 }
 
+/** One component's figures into its slot of `figures`. */
+function writeFigures(
+  figures: Float64Array,
+  offset: number,
+  summary: ComponentSummary,
+  thresholdCount: number,
+): void {
+  figures[offset + figureMean] = summary.mean;
+  figures[offset + figureNull] = summary.probNull;
+  figures[offset + figureNegative] = summary.probNegative;
+  figures[offset + figurePositive] = summary.probPositive;
+  for (let j = 0; j < thresholdCount; j++) figures[offset + firstAbove + j] = summary.above[j] as number;
+}
+
 const figureMean = 0;
 const figureNull = 1;
 const figureNegative = 2;
@@ -184,13 +214,17 @@ function weighRow(rows: RowState, b: number, logSpaceBest: number | null): void 
   const { logLikelihood, likelihood, stride, figures, row } = rows;
   const w = rows.weights[b] as Float64Array;
   const support = rows.supports[b] as Int32Array;
-  // Locals for the fixed figures (kept in registers), the row for the thresholds.
+  const thresholdCount = stride - firstAbove;
+  // Locals for the fixed figures and the first two thresholds (kept in registers: a review asks
+  // for one or two), the row for any further threshold.
   let total = 0;
   let mean = 0;
   let probNull = 0;
   let probNegative = 0;
   let probPositive = 0;
-  for (let f = 1 + firstAbove; f <= stride; f++) row[f] = 0;
+  let above0 = 0;
+  let above1 = 0;
+  for (let f = 3 + firstAbove; f <= stride; f++) row[f] = 0;
   for (let index = 0; index < support.length; index++) {
     const c = support[index] as number;
     const part =
@@ -204,14 +238,22 @@ function weighRow(rows: RowState, b: number, logSpaceBest: number | null): void 
     probNull += part * (figures[offset + figureNull] as number);
     probNegative += part * (figures[offset + figureNegative] as number);
     probPositive += part * (figures[offset + figurePositive] as number);
-    for (let f = firstAbove; f < stride; f++)
-      row[f + 1] = (row[f + 1] as number) + part * (figures[offset + f] as number);
+    if (thresholdCount > 0) {
+      above0 += part * (figures[offset + firstAbove] as number);
+      if (thresholdCount > 1) {
+        above1 += part * (figures[offset + firstAbove + 1] as number);
+        for (let f = firstAbove + 2; f < stride; f++)
+          row[f + 1] = (row[f + 1] as number) + part * (figures[offset + f] as number);
+      }
+    }
   }
   row[0] = total;
   row[1 + figureMean] = mean;
   row[1 + figureNull] = probNull;
   row[1 + figureNegative] = probNegative;
   row[1 + figurePositive] = probPositive;
+  if (thresholdCount > 0) row[1 + firstAbove] = above0;
+  if (thresholdCount > 1) row[2 + firstAbove] = above1;
 }
 
 /** Adds the current result's figures under each prior to its sums (its own function: it runs hot). */
