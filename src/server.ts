@@ -31,12 +31,17 @@ export function startServer(options: {
 }): Promise<RunningServer> {
   const logError = (message: string, error: unknown) => console.error(message, error);
   const reviewRuns = apiReviewRuns(logError);
-  const app = createApp({ db: options.db }, { logError, reviewRuns });
   const every = options.prepareReviewsEvery ?? defaultPrepareReviewsEvery;
   const preparer =
     every > 0
       ? startReviewPreparer({ db: options.db, runs: reviewRuns, intervalMilliseconds: every * 1000 })
       : null;
+  // A write through the API (an import is one request) is prepared about 2 s after it settles,
+  // without waiting for the periodic checks; the CLI's writes are seen by those checks.
+  const app = createApp(
+    { db: options.db },
+    { logError, reviewRuns, ...(preparer ? { onWrite: () => void preparer.soon() } : {}) },
+  );
   return new Promise((resolvePromise, rejectPromise) => {
     const onError = (error: Error) => {
       preparer?.stop();

@@ -3,12 +3,16 @@
  * background of the server, so that the review page opens from the cache after an import instead
  * of computing for seconds, for whichever family it shows; and since a review's prior fits are
  * cached apart (review-fits.ts), a review of one team, one quarter or other thresholds then fits
- * nothing and only computes the review itself. Every `intervalMilliseconds` it reads the data versions (one small query); at the first
- * check every workspace's version, and later a version that has held still for a whole interval
- * after changing (imports arrive in batches; the CLI's imports are seen as well as the API's), gets
- * the default review of each family (the family with most tests first, as the page opens on it), the
- * summary and the per-test table as the review page asks for them, through
- * the server's run registry, so that a request arriving meanwhile joins the run. One workspace at a time, and never two checks at once.
+ * nothing and only computes the review itself.
+ *
+ * Every `intervalMilliseconds` it reads the data versions (one small query). A version is prepared
+ * when it is still: at the first check every version (the server just started), later one that
+ * has held still for a whole interval after changing (the CLI's imports are seen this way), or any
+ * changed version once the API's writes have settled (soon(), called by the server after each
+ * write request; an import is one transaction). Preparing means the summary and the per-test table
+ * of each family's default review (unnamed first, as the page opens on it), through the server's
+ * run registry, so that a request arriving meanwhile joins the run. One workspace at a time, and
+ * never two checks at once.
  */
 import type { Database } from "../db/client.ts";
 import { dataVersions } from "../db/schema.ts";
@@ -30,9 +34,19 @@ async function preparedRequests(db: Database, workspaceId: number): Promise<Revi
   return [{}, ...byName];
 }
 
+/** Quiet time after the last write before soon()'s check: a client sending batches sends them closer. */
+export const defaultSettleMilliseconds = 2000;
+
 export interface ReviewPreparer {
   /** One check now (what the timer does); resolves when its preparations are done. */
   check(): Promise<void>;
+  /**
+   * A request that may have written to a history has just been answered (an import is one
+   * transaction): once no other write has followed for `settleMilliseconds`, one check treats every
+   * changed version as still and prepares it, instead of waiting for it to be seen twice.
+   * Resolves when that check is done.
+   */
+  soon(): Promise<void>;
   stop(): void;
 }
 
@@ -40,6 +54,8 @@ export function startReviewPreparer(options: {
   readonly db: Database;
   readonly runs: ReviewRuns;
   readonly intervalMilliseconds: number;
+  /** How long after the last write soon() waits before its check (default 2000). */
+  readonly settleMilliseconds?: number;
   /**
    * Called after each workspace's preparation, with the version prepared, whether any review was
    * computed (not found cached), and how many reviews (families) were prepared.
@@ -71,7 +87,7 @@ export function startReviewPreparer(options: {
     options.onPrepared?.(workspaceId, version, computed, requests.length);
   }
 
-  async function checkOnce(): Promise<void> {
+  async function checkOnce(settled: boolean): Promise<void> {
     const rows = await db
       .select({ workspaceId: dataVersions.workspaceId, version: dataVersions.version })
       .from(dataVersions);
@@ -79,18 +95,47 @@ export function startReviewPreparer(options: {
     for (const { workspaceId, version } of rows) {
       if (stopped) return;
       // At the first check (the server just started) no import is under way: every version counts
-      // as still, and a review already cached is only looked up.
-      const still = firstCheck || seen.get(workspaceId) === version;
+      // as still, and a review already cached is only looked up. After writes have settled
+      // (soon()), a changed version counts as still too.
+      const still = firstCheck || settled || seen.get(workspaceId) === version;
       seen.set(workspaceId, version);
       if (still && prepared.get(workspaceId) !== version) await prepare(workspaceId, version);
     }
   }
 
   function check(): Promise<void> {
-    checking ??= checkOnce().finally(() => {
+    checking ??= checkOnce(false).finally(() => {
       checking = null;
     });
     return checking;
+  }
+
+  let settleTimer: NodeJS.Timeout | null = null;
+  let settleWaiters: (() => void)[] = [];
+  async function settledCheck(): Promise<void> {
+    // After a check under way (it may have begun before the write), one that counts writes as settled.
+    while (checking) await checking.catch(() => undefined);
+    if (stopped) return;
+    checking = checkOnce(true).finally(() => {
+      checking = null;
+    });
+    await checking.catch(() => undefined);
+  }
+
+  function soon(): Promise<void> {
+    if (stopped) return Promise.resolve();
+    if (settleTimer) clearTimeout(settleTimer);
+    const done = new Promise<void>((resolve) => settleWaiters.push(resolve));
+    settleTimer = setTimeout(() => {
+      settleTimer = null;
+      const waiters = settleWaiters;
+      settleWaiters = [];
+      void settledCheck().finally(() => {
+        for (const resolve of waiters) resolve();
+      });
+    }, options.settleMilliseconds ?? defaultSettleMilliseconds);
+    settleTimer.unref();
+    return done;
   }
 
   function schedule(): void {
@@ -107,9 +152,13 @@ export function startReviewPreparer(options: {
   schedule();
   return {
     check,
+    soon,
     stop() {
       stopped = true;
       if (timer) clearTimeout(timer);
+      if (settleTimer) clearTimeout(settleTimer);
+      for (const resolve of settleWaiters) resolve();
+      settleWaiters = [];
     },
   };
 }

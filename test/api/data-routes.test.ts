@@ -227,3 +227,33 @@ describe("imports", () => {
     expect(body.error.message).toContain("text/csv");
   });
 });
+
+describe("the write hook (the server's review preparer listens to it)", () => {
+  it("is called after an accepted import, not after a read or a rejected request", async () => {
+    let writes = 0;
+    const hooked = createApp({ db: handle.db }, { onWrite: () => writes++ });
+    const header =
+      "experiment,name,team,metric,metric_kind,direction,started_on,ended_on,decision,is_aa,stopped_early,lift,lift_se,primary";
+    const send = (row: string) =>
+      hooked.request("/api/v1/imports?fileName=hook.csv", {
+        method: "POST",
+        headers: { authorization: `Bearer ${beta.tokens.write}`, "content-type": "text/csv" },
+        body: `${header}\n${row}\n`,
+      });
+    const read = await hooked.request("/api/v1/experiments", {
+      headers: { authorization: `Bearer ${beta.tokens.read}` },
+    });
+    expect(read.status).toBe(200);
+    expect(writes).toBe(0);
+    const rejected = await send(
+      "hook-002,Hook,growth,signup,binary,increase,2024-02-01,2024-02-14,maybe,no,no,0.02,0.01,yes",
+    );
+    expect(rejected.status).toBe(422);
+    expect(writes).toBe(0);
+    const accepted = await send(
+      "hook-001,Hook,growth,signup,binary,increase,2024-02-01,2024-02-14,shipped,no,no,0.02,0.01,yes",
+    );
+    expect(accepted.status).toBe(200);
+    expect(writes).toBe(1);
+  });
+});

@@ -38,6 +38,7 @@ describe("startReviewPreparer", () => {
       db: handle.db,
       runs,
       intervalMilliseconds: 3_600_000,
+      settleMilliseconds: 20,
       onPrepared: (_workspace, version, computed, reviews) => prepared.push({ version, computed, reviews }),
     });
     try {
@@ -100,6 +101,21 @@ describe("startReviewPreparer", () => {
       expect(prepared).toHaveLength(2);
       expect(prepared[1]?.version).toBeGreaterThan(prepared[0]?.version as number);
       expect(prepared[1]?.computed).toBe(true);
+
+      // After a write through the API the server calls soon(): once writes settle, one check
+      // prepares the changed version without seeing it twice. Two writes in a row prepare once.
+      for (const suffix of [" (again)", " (and again)"]) {
+        await handle.db
+          .update(experiments)
+          .set({ name: sql`${experiments.name} || ${suffix}` })
+          .where(eq(experiments.id, first?.id as number));
+        void preparer.soon();
+      }
+      await preparer.soon();
+      expect(prepared).toHaveLength(3);
+      expect(prepared[2]?.version).toBeGreaterThan(prepared[1]?.version as number);
+      expect(prepared[2]?.computed).toBe(true);
+      expect((await runReview(handle.db, workspaceId, {}, { includeTests: true })).cached).toBe(true);
     } finally {
       preparer.stop();
     }
