@@ -312,7 +312,14 @@ interface TestColumns {
 }
 
 function testColumns(tests: readonly ReviewTest[]): TestColumns {
-  return { y: Float64Array.from(tests, (test) => test.y), s: Float64Array.from(tests, (test) => test.s) };
+  // A plain loop: Float64Array.from with a mapping function is several times slower.
+  const y = new Float64Array(tests.length);
+  const s = new Float64Array(tests.length);
+  for (let i = 0; i < tests.length; i++) {
+    y[i] = (tests[i] as ReviewTest).y;
+    s[i] = (tests[i] as ReviewTest).s;
+  }
+  return { y, s };
 }
 
 /**
