@@ -8,9 +8,10 @@
  * review takes 20 refits and fits the grid sensitivity row on 100 points (run-review.ts; both stated
  * in the review's assumptions), so the default figure at 1e5 tests is for those settings. Tests are simulated (70 % nulls, the
  * rest N(0, 0.02^2), SE uniform on [0.005, 0.03]; shipped when z > 1.96), written with drizzle.
- * Then a review run (POST /review/runs, polled), and the first request of the review page after a
+ * Then a review run (POST /review/runs, polled), the first request of the review page after a
  * write to the history, once the server's preparer (review-preparer.ts) has computed the default
- * review in the background.
+ * review in the background, and reviews of one team, one quarter and another delta, computed on
+ * request on the prior fits the preparation cached.
  * Run: npm run bench -- review   (PLUMBLINE_BENCH_REVIEW_TESTS=20000 for a shorter run)
  */
 import { mkdtempSync, rmSync } from "node:fs";
@@ -222,6 +223,25 @@ export async function runReviewBench(): Promise<object> {
         getReviewCached: getFirst.body.cached,
         withinColdTarget: pageFirst.seconds <= 1 && pageFirst.body.state === "ready",
       };
+      // Reviews not computed before whose prior fits the preparation cached (they depend only on
+      // the family's tests and the fit settings): computed on request, fitting nothing.
+      process.stderr.write("bench: reviews on the prepared prior...\n");
+      const onPreparedFits: Record<string, unknown> = {};
+      for (const [name, path] of Object.entries({
+        oneTeam: "/api/v1/review?family=conversion&team=team-3",
+        oneQuarter: "/api/v1/review?family=conversion&quarter=2024Q2",
+        wholeFamilyOtherDelta: "/api/v1/review?family=conversion&delta=0.001",
+      })) {
+        const cold = await timed(path);
+        onPreparedFits[name] = {
+          path,
+          status: cold.status,
+          seconds: cold.seconds,
+          cached: cold.body.cached,
+          reviewedTests: cold.body.reviewedTests,
+          withinColdTarget: cold.seconds <= 1,
+        };
+      }
       return {
         command: "npm run bench -- review",
         tests: testCount,
@@ -231,6 +251,7 @@ export async function runReviewBench(): Promise<object> {
         configurations: measured,
         run,
         prepared,
+        onPreparedFits,
       };
     } finally {
       server.close();
