@@ -22,8 +22,9 @@ Starts the HTTP API on the database named by PLUMBLINE_DATABASE_URL
   --demo     create or refresh the demo workspace first and print a read token for it
   --prepare-reviews-every S
              seconds between the checks that compute, in the background, the default
-             review of a workspace whose history changed, so that the review page opens
-             from the cache (default ${defaultPrepareReviewsEvery}; 0 turns it off)
+             review of every metric family of a workspace whose history changed, so that
+             the review page opens from the cache (default ${defaultPrepareReviewsEvery}); writes through
+             the API are prepared 2 s after they settle; 0 turns all of it off
   --json     print one JSON document {url, workspace?, token?} once listening`;
 
 /** Resolves when the process is asked to stop; tests pass their own. */
