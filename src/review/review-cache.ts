@@ -90,6 +90,7 @@ export async function writeCache(
   db: Database,
   workspaceId: number,
   entries: readonly { cacheKey: string; kind: string; json: string }[],
+  limits: CacheLimits = cacheLimits,
 ): Promise<void> {
   await db.transaction(async (tx) => {
     for (const entry of entries) {
@@ -99,19 +100,40 @@ export async function writeCache(
         .values({ cacheKey: entry.cacheKey, workspaceId, kind: entry.kind, value })
         .onConflictDoUpdate({ target: computationCache.cacheKey, set: { value, kind: entry.kind } });
     }
-    if (entries.some((entry) => entry.kind === reviewTestsCacheKind)) {
-      // Per-test tables are large (about 500 bytes a test) and cheap to recompute from a cached
-      // summary's fits: only the workspace's most recently written few are kept.
+    // Each kind written keeps only the workspace's newest entries (by first write: an upsert keeps
+    // its place), so that a history written again and again does not grow the cache without end.
+    for (const kind of new Set(entries.map((entry) => entry.kind))) {
+      const limit = limits[kind];
+      if (!limit) continue;
       await tx.run(sql`
         delete from ${computationCache}
-        where ${computationCache.workspaceId} = ${workspaceId} and ${computationCache.kind} = ${reviewTestsCacheKind}
-          and rowid not in (
-            select rowid from ${computationCache}
-            where ${computationCache.workspaceId} = ${workspaceId} and ${computationCache.kind} = ${reviewTestsCacheKind}
-            order by rowid desc limit ${keptTestTables})`);
+        where rowid in (
+          select rowid from (
+            select rowid,
+              row_number() over (order by rowid desc) as newness,
+              sum(octet_length(${computationCache.value})) over (order by rowid desc) as bytes
+            from ${computationCache}
+            where ${computationCache.workspaceId} = ${workspaceId} and ${computationCache.kind} = ${kind})
+          where newness > 1 and (newness > ${limit.entries} or bytes > ${limit.bytes}))`);
     }
   });
 }
 
-/** Per-test tables kept per workspace (the newest written). */
-export const keptTestTables = 4;
+/**
+ * What a workspace keeps of each kind: the newest `entries` entries while their total stays
+ * within `bytes` (the newest one is always kept). Per-test tables are large (about 500 bytes a
+ * test) and cheap to recompute from cached fits: a few, within 256 MiB, enough for the preparer's
+ * reviews of every family of a history of 1e5 tests (review-preparer.ts). Summaries (some ten
+ * kilobytes) and fits (some tens) are bounded by count (common practice for caches of
+ * recomputable values).
+ */
+export type CacheLimits = Readonly<Record<string, { readonly entries: number; readonly bytes: number }>>;
+
+export const cacheLimits: CacheLimits = {
+  [reviewTestsCacheKind]: { entries: 16, bytes: 256 * 1024 * 1024 },
+  [reviewCacheKind]: { entries: 256, bytes: Number.MAX_SAFE_INTEGER },
+  [reviewFitsCacheKind]: { entries: 64, bytes: Number.MAX_SAFE_INTEGER },
+};
+
+/** Per-test tables kept per workspace at most (the newest written; fewer when they are large). */
+export const keptTestTables = cacheLimits[reviewTestsCacheKind]?.entries as number;
