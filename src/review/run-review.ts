@@ -10,7 +10,7 @@ import type { FitFamily } from "../stats/fit-effect-prior.ts";
 import { defaultThetaGridPointCount } from "../stats/prior-grid.ts";
 import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
 import { createRandom } from "../stats/random.ts";
-import { posteriorColumnsOnThreadsNow } from "../threads/posterior-threads.ts";
+import { posteriorColumnsOnThreadsNow, probabilityAboveOnThreadsNow } from "../threads/posterior-threads.ts";
 import { posteriorSumsOnThreads } from "../threads/sums-threads.ts";
 import { pauseForRequests } from "./pause-for-requests.ts";
 import { readReviewData } from "./read-review-data.ts";
@@ -211,7 +211,11 @@ export async function runReview(
     bootstrapPriors,
     random: createRandom(settings.seed),
     // Large histories share the per-test posteriors and program sums with the helper thread.
-    kernels: { posteriorColumns: posteriorColumnsOnThreadsNow, posteriorSums: posteriorSumsOnThreads },
+    kernels: {
+      posteriorColumns: posteriorColumnsOnThreadsNow,
+      posteriorSums: posteriorSumsOnThreads,
+      probabilityAbove: probabilityAboveOnThreadsNow,
+    },
     settings: {
       delta: settings.delta,
       practicalThreshold: settings.practicalThreshold,

@@ -142,6 +142,54 @@ export function posteriorProbabilityAbove(
   return clampProbability(mixtureUpperTail(workspace, threshold));
 }
 
+/**
+ * posteriorProbabilityAbove for many results under one prior: column i is P(theta > threshold |
+ * y[i], s[i]), the same arithmetic row by row. Validates like posteriorColumns.
+ */
+export function posteriorProbabilityAboveColumn(
+  prior: EffectPrior,
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  threshold: number,
+): Float64Array {
+  validateProbabilityAboveInputs(y, s, threshold);
+  const out = new Float64Array(y.length);
+  writeProbabilityAboveRows(prior, y, s, threshold, out, 0, y.length);
+  return out;
+}
+
+/** What posteriorProbabilityAboveColumn checks: posteriorColumns' inputs and a threshold >= 0. */
+export function validateProbabilityAboveInputs(
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  threshold: number,
+): void {
+  validatePosteriorInputs(y, s, defaultCredibleLevel);
+  requireFinite("threshold", threshold);
+  if (threshold < 0) throw new StatsInputError("threshold", "at least 0", threshold);
+}
+
+/**
+ * Writes P(theta > threshold | y, s) of rows [from, to) into `out` at the same rows (inputs
+ * validated); rows are independent, so ranges can be written on any thread with the same result.
+ */
+export function writeProbabilityAboveRows(
+  prior: EffectPrior,
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  threshold: number,
+  out: Float64Array,
+  from: number,
+  to: number,
+): void {
+  const prepared = preparePrior(prior);
+  const workspace = createWorkspace(prepared.count);
+  for (let i = from; i < to; i++) {
+    fillPosterior(prepared, y[i] as number, s[i] as number, workspace);
+    out[i] = clampProbability(mixtureUpperTail(workspace, threshold));
+  }
+}
+
 /** The exact posterior as a mixture of point, normal and truncated-normal components. */
 export function posteriorMixture(prior: EffectPrior, y: number, s: number): readonly WeightedComponent[] {
   validateResult(y, s);

@@ -26,8 +26,7 @@ import { designAnalysis } from "./design-analysis.ts";
 import { normalCdf, normalQuantile } from "./distributions.ts";
 import { type EffectPrior, nullShare } from "./effect-prior.ts";
 import { requireFinite, requireOpenUnit, StatsInputError } from "./errors.ts";
-import { posteriorColumns, posteriorMixture } from "./posterior.ts";
-import { posteriorProbabilityColumns } from "./posterior-probabilities.ts";
+import { posteriorColumns, posteriorMixture, posteriorProbabilityAboveColumn } from "./posterior.ts";
 import { type PosteriorSums, posteriorSumsUnderPriors } from "./posterior-sums.ts";
 import { type PredictiveCalibration, predictiveCalibration } from "./predictive-calibration.ts";
 import type { RandomSource } from "./random.ts";
@@ -110,6 +109,8 @@ export interface ProgramReviewInput {
 export interface ReviewKernels {
   readonly posteriorColumns: typeof posteriorColumns;
   readonly posteriorSums: typeof posteriorSumsUnderPriors;
+  /** P(theta > delta) per test when delta is not 0 (default posteriorProbabilityAboveColumn). */
+  readonly probabilityAbove?: typeof posteriorProbabilityAboveColumn;
 }
 
 export interface Interval {
@@ -431,8 +432,12 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
   const includedAboveDelta =
     delta === 0
       ? null
-      : (posteriorProbabilityColumns(prior, includedColumns.y, includedColumns.s, [delta])
-          .probAbove[0] as Float64Array);
+      : (kernels.probabilityAbove ?? posteriorProbabilityAboveColumn)(
+          prior,
+          includedColumns.y,
+          includedColumns.s,
+          delta,
+        );
   for (const [index, test] of included.entries()) {
     const posterior = {
       mean: includedPosteriors.mean[index] as number,

@@ -3,6 +3,7 @@
  * computation over inputs held in SharedArrayBuffers or copied with the message, so its result is
  * the same whichever thread computes it:
  * - "posteriors": posterior rows, chunk by chunk beside the calling thread (posterior-threads.ts);
+ * - "above": P(theta > threshold) rows, chunk by chunk beside the calling thread (posterior-threads.ts);
  * - "sums": program sums under many priors, chunk by chunk beside the calling thread (sums-threads.ts);
  * - "coarse-grid": the grid family's fit on a coarse grid (refit-threads.ts);
  * - "refits": bootstrap refits claimed one at a time from a shared counter (refit-threads.ts).
@@ -11,7 +12,7 @@ import { type Resample, refitResample } from "../stats/bootstrap-prior.ts";
 import type { EffectPrior, PriorComponent } from "../stats/effect-prior.ts";
 import { type FamilyFit, type FitFamily, fitOnMatrix } from "../stats/fit-effect-prior.ts";
 import { type LikelihoodMatrix, likelihoodMatrix } from "../stats/likelihood-matrix.ts";
-import { emptyPosteriorColumns, writePosteriorRows } from "../stats/posterior.ts";
+import { emptyPosteriorColumns, writePosteriorRows, writeProbabilityAboveRows } from "../stats/posterior.ts";
 import { type PosteriorSums, posteriorSumsUnderPriors } from "../stats/posterior-sums.ts";
 import { thetaGridComponents } from "../stats/prior-grid.ts";
 import { type SharedChunks, workOnNextChunk } from "./shared-chunks.ts";
@@ -26,6 +27,16 @@ export type HelperJob =
       readonly s: Float64Array;
       /** One SharedArrayBuffer per posterior column, in emptyPosteriorColumns' order. */
       readonly columns: readonly SharedArrayBuffer[];
+      readonly chunks: SharedChunks;
+    }
+  | {
+      readonly kind: "above";
+      readonly prior: EffectPrior;
+      readonly threshold: number;
+      /** Over SharedArrayBuffers, as is `out`. */
+      readonly y: Float64Array;
+      readonly s: Float64Array;
+      readonly out: Float64Array;
       readonly chunks: SharedChunks;
     }
   | {
@@ -71,6 +82,12 @@ export function runHelperJob(job: HelperJob, progress: (value: unknown) => void)
       const columns = emptyPosteriorColumns(job.chunks.rows, job.level, job.columns);
       const write = (from: number, to: number) =>
         writePosteriorRows(job.prior, job.y, job.s, columns, from, to);
+      while (workOnNextChunk(job.chunks, write));
+      return null;
+    }
+    case "above": {
+      const write = (from: number, to: number) =>
+        writeProbabilityAboveRows(job.prior, job.y, job.s, job.threshold, job.out, from, to);
       while (workOnNextChunk(job.chunks, write));
       return null;
     }

@@ -12,8 +12,11 @@ import {
   type PosteriorColumns,
   posteriorColumnCount,
   posteriorColumns,
+  posteriorProbabilityAboveColumn,
   validatePosteriorInputs,
+  validateProbabilityAboveInputs,
   writePosteriorRows,
+  writeProbabilityAboveRows,
 } from "../stats/posterior.ts";
 import { helperThread, sharedFloat64 } from "./helper-thread.ts";
 import {
@@ -100,4 +103,30 @@ export function posteriorColumnsOnThreadsNow(
   const job = startPosteriorJob(prior, y, s, level);
   writeChunksHere(job.chunks, job.write);
   return job.columns;
+}
+
+/**
+ * posteriorProbabilityAboveColumn on two threads, without yielding (for the program review's
+ * P(real win) at a threshold other than 0): the same rows, written chunk by chunk here and on the
+ * helper; chunks the helper claimed but did not finish are written here.
+ */
+export function probabilityAboveOnThreadsNow(
+  prior: EffectPrior,
+  y: ArrayLike<number>,
+  s: ArrayLike<number>,
+  threshold: number,
+): Float64Array {
+  if (y.length < threadedPosteriorRows) return posteriorProbabilityAboveColumn(prior, y, s, threshold);
+  validateProbabilityAboveInputs(y, s, threshold);
+  const sharedY = sharedFloat64(y);
+  const sharedS = sharedFloat64(s);
+  const out = new Float64Array(new SharedArrayBuffer(8 * y.length));
+  const chunks = createSharedChunks(y.length);
+  helperThread()
+    ?.run<null>({ kind: "above", prior, threshold, y: sharedY, s: sharedS, out, chunks })
+    .catch(() => null);
+  writeChunksHere(chunks, (from, to) =>
+    writeProbabilityAboveRows(prior, sharedY, sharedS, threshold, out, from, to),
+  );
+  return out;
 }

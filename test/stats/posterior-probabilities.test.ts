@@ -5,7 +5,11 @@
  */
 import { describe, expect, it } from "vitest";
 import type { EffectPrior, PriorComponent } from "../../src/stats/effect-prior.ts";
-import { posteriorOf, posteriorProbabilityAbove } from "../../src/stats/posterior.ts";
+import {
+  posteriorOf,
+  posteriorProbabilityAbove,
+  posteriorProbabilityAboveColumn,
+} from "../../src/stats/posterior.ts";
 import { posteriorProbabilityColumns } from "../../src/stats/posterior-probabilities.ts";
 import { createRandom } from "../../src/stats/random.ts";
 
@@ -101,5 +105,42 @@ describe("posteriorProbabilityColumns", () => {
       components: [{ component: { kind: "point", at: 0 }, weight: 1 }],
     };
     expect(() => posteriorProbabilityColumns(prior, [0.01, 0.02], [0.01, 0])).toThrow(/s\[1\]/);
+  });
+});
+
+describe("posteriorProbabilityAboveColumn", () => {
+  it("is posteriorProbabilityAbove row by row, bit for bit, and agrees with the batch kernel", () => {
+    const random = createRandom(20261204);
+    let compared = 0;
+    for (let trial = 0; trial < 100; trial++) {
+      const prior = randomPrior(random);
+      const y = Float64Array.from({ length: 4 }, (_, i) =>
+        i === 3 ? 0.3 * random.normal() : 0.04 * random.normal(),
+      );
+      const s = Float64Array.from({ length: 4 }, () => 0.002 + 0.03 * random.uniform());
+      for (const threshold of [0, 0.005, 0.02]) {
+        const column = posteriorProbabilityAboveColumn(prior, y, s, threshold);
+        const batch = posteriorProbabilityColumns(prior, y, s, [threshold]).probAbove[0] as Float64Array;
+        for (let i = 0; i < y.length; i++) {
+          expect(
+            Object.is(column[i], posteriorProbabilityAbove(prior, y[i] as number, s[i] as number, threshold)),
+          ).toBe(true);
+          expect(Math.abs((column[i] as number) - (batch[i] as number))).toBeLessThanOrEqual(
+            probabilityTolerance,
+          );
+          compared++;
+        }
+      }
+    }
+    expect(compared).toBe(1200);
+  });
+
+  it("refuses a negative threshold and a result without a positive standard error", () => {
+    const prior: EffectPrior = {
+      family: "assumed",
+      components: [{ component: { kind: "point", at: 0 }, weight: 1 }],
+    };
+    expect(() => posteriorProbabilityAboveColumn(prior, [0.01], [0.01], -0.001)).toThrow(/threshold/);
+    expect(() => posteriorProbabilityAboveColumn(prior, [0.01, 0.02], [0.01, 0], 0.001)).toThrow(/s\[1\]/);
   });
 });

@@ -6,10 +6,19 @@
 import { afterAll, describe, expect, it } from "vitest";
 import type { EffectPrior } from "../../src/stats/effect-prior.ts";
 import { StatsInputError } from "../../src/stats/errors.ts";
-import { type PosteriorColumns, posteriorColumnNames, posteriorColumns } from "../../src/stats/posterior.ts";
+import {
+  type PosteriorColumns,
+  posteriorColumnNames,
+  posteriorColumns,
+  posteriorProbabilityAboveColumn,
+} from "../../src/stats/posterior.ts";
 import { createRandom } from "../../src/stats/random.ts";
 import { helperThread } from "../../src/threads/helper-thread.ts";
-import { posteriorColumnsOnThreads, threadedPosteriorRows } from "../../src/threads/posterior-threads.ts";
+import {
+  posteriorColumnsOnThreads,
+  probabilityAboveOnThreadsNow,
+  threadedPosteriorRows,
+} from "../../src/threads/posterior-threads.ts";
 
 // Every kind of component the posteriors handle: atom, normals, uniforms, half-normal.
 const prior: EffectPrior = {
@@ -96,5 +105,18 @@ describe("posteriors on two threads", () => {
     await expect(posteriorColumnsOnThreads(prior, y, bad, 0.9)).rejects.toThrow(StatsInputError);
     await expect(posteriorColumnsOnThreads(prior, y, bad, 0.9)).rejects.toThrow(/s\[70001\]/);
     await expect(posteriorColumnsOnThreads(prior, y, s, 1.5)).rejects.toThrow(/level/);
+  });
+
+  it("writes P(theta > threshold) on two threads as the one-thread column does", async () => {
+    // The helper is up from the tests above, so it takes a share.
+    const threshold = 0.004;
+    const expected = posteriorProbabilityAboveColumn(prior, y, s, threshold);
+    const actual = probabilityAboveOnThreadsNow(prior, y, s, threshold);
+    let differing = 0;
+    for (let i = 0; i < rows; i++) if (!Object.is(actual[i], expected[i])) differing++;
+    expect(differing).toBe(0);
+    const bad = Float64Array.from(s);
+    bad[70_001] = -1;
+    expect(() => probabilityAboveOnThreadsNow(prior, y, bad, threshold)).toThrow(/s\[70001\]/);
   });
 });
