@@ -116,6 +116,8 @@ export interface ReviewIdentity {
   readonly bootstrapAsked: boolean;
   /** Changes with the workspace's data version, so a write to its history makes a new key. */
   readonly cacheKey: string;
+  /** The workspace's data version the key was made with. */
+  readonly dataVersion: number;
 }
 
 export async function reviewIdentity(
@@ -130,6 +132,7 @@ export async function reviewIdentity(
     settings,
     bootstrapAsked,
     cacheKey: reviewCacheKey(workspaceId, { settings, bootstrapAsked }, dataVersion),
+    dataVersion,
   };
 }
 
@@ -170,7 +173,9 @@ export async function runReview(
   if (cached) return cached;
 
   progress("reading the stored history");
-  const data = await readReviewData(db, workspaceId, settings.filters);
+  // At the identity's data version: a review of the same family at the same version (another
+  // team, quarter or threshold) reuses the rows read (read-review-data.ts).
+  const data = await readReviewData(db, workspaceId, settings.filters, identity.dataVersion);
   const included = data.familyTests.filter(
     (test) => !test.isAa && !test.sampleRatioMismatch && Number.isFinite(test.s) && test.s > 0,
   );
@@ -210,6 +215,8 @@ export async function runReview(
     alternativeFits: alternatives,
     bootstrapPriors,
     random: createRandom(settings.seed),
+    // The table only when asked for: the summary is the same without it.
+    includeTests: options.includeTests ?? false,
     // Large histories share the per-test posteriors and program sums with the helper thread.
     kernels: {
       posteriorColumns: posteriorColumnsOnThreadsNow,

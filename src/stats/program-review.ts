@@ -100,6 +100,11 @@ export interface ProgramReviewInput {
   /** Free text the caller adds to the assumptions (e.g. how tests were read and filtered). */
   readonly extraAssumptions?: readonly string[];
   /**
+   * Whether to build the per-test table (default true); without it `tests` is empty and every
+   * other figure is the same (a summary of a large history skips 1e5 rows it would drop).
+   */
+  readonly includeTests?: boolean;
+  /**
    * The per-result kernels, for a caller that runs them on more threads with the same results
    * (src/threads); default posteriorColumns and posteriorSumsUnderPriors.
    */
@@ -419,6 +424,53 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
   const realPart = shippingPartial(prior, 1, Number.NEGATIVE_INFINITY, delta, Number.POSITIVE_INFINITY);
   const typicalRealWin = realPart.probability > 0 ? realPart.effectMoment / realPart.probability : Number.NaN;
 
+  // One row of the per-test table: the test, its posterior, power and exaggeration at the prior's
+  // typical real win (Gelman & Carlin 2014), and its flags.
+  const includeTests = input.includeTests ?? true;
+  const testRow = (
+    test: ReviewTest,
+    posterior: { mean: number; lower: number; upper: number; lfsr: number },
+    probabilityRealWin: number,
+  ): ReviewTestRow => {
+    const design =
+      Number.isFinite(typicalRealWin) && typicalRealWin > 0
+        ? designAnalysis({ effect: typicalRealWin, standardError: test.s, alpha })
+        : null;
+    const flags: ReviewFlag[] = [];
+    if (test.stoppedEarly) flags.push("early_stop");
+    if (test.sampleRatioMismatch) flags.push("sample_ratio_mismatch");
+    if (design && design.power < underpoweredBelow) flags.push("underpowered");
+    if (
+      Number.isFinite(typicalRealWin) &&
+      test.y > extremeClaimMultiple * typicalRealWin &&
+      test.y / test.s > criticalZ
+    ) {
+      flags.push("extreme_claim");
+    }
+    const realized = test.realized ?? null;
+    return {
+      key: test.key,
+      name: test.name,
+      team: test.team,
+      quarter: test.quarter,
+      decision: test.decision,
+      claimed: test.y,
+      standardError: test.s,
+      z: test.y / test.s,
+      shrunk: posterior.mean,
+      shrunkLower: posterior.lower,
+      shrunkUpper: posterior.upper,
+      probabilityRealWin,
+      probabilityFalseWin: 1 - probabilityRealWin,
+      lfsr: posterior.lfsr,
+      power: design ? design.power : Number.NaN,
+      exaggeration: design ? design.exaggeration : Number.NaN,
+      flags,
+      realized: realized ? realized.estimate : null,
+      realizedStandardError: realized ? realized.standardError : null,
+    };
+  };
+
   // Per-test posteriors under the chosen prior.
   const rows: ReviewTestRow[] = [];
   const overall = emptyMatrix();
@@ -448,43 +500,8 @@ export function programReview(input: ProgramReviewInput): ProgramReview {
     };
     const probabilityRealWin =
       includedAboveDelta === null ? posterior.probPositive : (includedAboveDelta[index] as number);
-    const design =
-      Number.isFinite(typicalRealWin) && typicalRealWin > 0
-        ? designAnalysis({ effect: typicalRealWin, standardError: test.s, alpha })
-        : null;
-    const flags: ReviewFlag[] = [];
-    if (test.stoppedEarly) flags.push("early_stop");
-    if (test.sampleRatioMismatch) flags.push("sample_ratio_mismatch");
-    if (design && design.power < underpoweredBelow) flags.push("underpowered");
-    if (
-      Number.isFinite(typicalRealWin) &&
-      test.y > extremeClaimMultiple * typicalRealWin &&
-      test.y / test.s > criticalZ
-    ) {
-      flags.push("extreme_claim");
-    }
     const realized = test.realized ?? null;
-    rows.push({
-      key: test.key,
-      name: test.name,
-      team: test.team,
-      quarter: test.quarter,
-      decision: test.decision,
-      claimed: test.y,
-      standardError: test.s,
-      z: test.y / test.s,
-      shrunk: posterior.mean,
-      shrunkLower: posterior.lower,
-      shrunkUpper: posterior.upper,
-      probabilityRealWin,
-      probabilityFalseWin: 1 - probabilityRealWin,
-      lfsr: posterior.lfsr,
-      power: design ? design.power : Number.NaN,
-      exaggeration: design ? design.exaggeration : Number.NaN,
-      flags,
-      realized: realized ? realized.estimate : null,
-      realizedStandardError: realized ? realized.standardError : null,
-    });
+    if (includeTests) rows.push(testRow(test, posterior, probabilityRealWin));
     const isShipped = shipDecisions.has(test.decision);
     const isNotShipped = notShipDecisions.has(test.decision);
     if (isShipped || isNotShipped) {

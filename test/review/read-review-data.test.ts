@@ -8,6 +8,7 @@ import { asc, eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { experiments, metrics, results, workspaces } from "../../src/db/schema.ts";
 import { readReviewData } from "../../src/review/read-review-data.ts";
+import { storedDataVersion } from "../../src/review/review-cache.ts";
 import { resolveFilters } from "../../src/review/review-filters.ts";
 import { createRandom } from "../../src/stats/random.ts";
 import { createTestDb } from "../helpers/db.ts";
@@ -117,5 +118,43 @@ describe("readReviewData", () => {
         decision: row.decision,
       });
     });
+  });
+
+  it("reads a family once per data version, filters the rows it remembers, and reads again after a write", async () => {
+    const version = await storedDataVersion(handle.db, workspaceId);
+    const first = await readReviewData(handle.db, workspaceId, resolveFilters({}), version);
+    const again = await readReviewData(handle.db, workspaceId, resolveFilters({ team: "team 1" }), version);
+    // The same rows (not read again), with the team filter applied to them.
+    expect(again.familyTests).toBe(first.familyTests);
+    expect(again.fingerprint).toBe(first.fingerprint);
+    const direct = await readReviewData(handle.db, workspaceId, resolveFilters({ team: "team 1" }));
+    expect(again.reviewedTests.map((test) => test.key)).toEqual(direct.reviewedTests.map((test) => test.key));
+    expect(again.reviewedTests.length).toBeGreaterThan(0);
+    expect(again.reviewedTests.length).toBeLessThan(count);
+    const dated = await readReviewData(
+      handle.db,
+      workspaceId,
+      resolveFilters({ from: "2026-03-01" }),
+      version,
+    );
+    const datedDirect = await readReviewData(handle.db, workspaceId, resolveFilters({ from: "2026-03-01" }));
+    expect(dated.reviewedTests.map((test) => test.key)).toEqual(
+      datedDirect.reviewedTests.map((test) => test.key),
+    );
+    // A write bumps the version: the next read at the new version sees it.
+    const [firstResult] = await handle.db
+      .select({ id: results.id })
+      .from(results)
+      .orderBy(asc(results.id))
+      .limit(1);
+    await handle.db
+      .update(results)
+      .set({ lift: 0.125 })
+      .where(eq(results.id, firstResult?.id as number));
+    const newer = await storedDataVersion(handle.db, workspaceId);
+    expect(newer).toBeGreaterThan(version);
+    const after = await readReviewData(handle.db, workspaceId, resolveFilters({}), newer);
+    expect(after.familyTests[0]?.y).toBe(0.125);
+    expect(after.fingerprint).not.toBe(first.fingerprint);
   });
 });

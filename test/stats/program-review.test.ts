@@ -112,4 +112,18 @@ describe("programReview against the demo generator's known truth", () => {
     expect(review.realized?.count).toBeGreaterThan(0);
     expect(review.winnersCurseBias.frequentist.bias).toBeGreaterThan(0);
   });
+
+  it("gives the same figures without the per-test table when it is not asked for", () => {
+    const summaryOnly = programReview({
+      tests,
+      fit,
+      random: createRandom(5),
+      settings: { winnersCurseReplicates: 200 },
+      includeTests: false,
+    });
+    expect(summaryOnly.tests).toEqual([]);
+    const { tests: table, ...rest } = review;
+    expect(table.length).toBe(review.counts.included);
+    expect({ ...summaryOnly, tests: table }).toEqual({ ...rest, tests: table });
+  });
 });
