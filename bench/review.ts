@@ -231,6 +231,9 @@ export async function runReviewBench(): Promise<object> {
         oneTeam: "/api/v1/review?family=conversion&team=team-3",
         oneQuarter: "/api/v1/review?family=conversion&quarter=2024Q2",
         wholeFamilyOtherDelta: "/api/v1/review?family=conversion&delta=0.001",
+        // The same code paths again (the first request of a kind also compiles them).
+        wholeFamilyAnotherDelta: "/api/v1/review?family=conversion&delta=0.002",
+        wholeFamilyOtherAlpha: "/api/v1/review?family=conversion&alpha=0.1",
       })) {
         const cold = await timed(path);
         onPreparedFits[name] = {
