@@ -36,11 +36,15 @@ export function startServer(options: {
     every > 0
       ? startReviewPreparer({ db: options.db, runs: reviewRuns, intervalMilliseconds: every * 1000 })
       : null;
-  // A write through the API (an import is one request) is prepared about 2 s after it settles,
-  // without waiting for the periodic checks; the CLI's writes are seen by those checks.
+  // A write through the API (an import is one request) is prepared about 2 s after that
+  // workspace's writes settle, without waiting for the periodic checks; the CLI's writes are seen
+  // by those checks.
   const app = createApp(
-    { db: options.db },
-    { logError, reviewRuns, ...(preparer ? { onWrite: () => void preparer.soon() } : {}) },
+    {
+      db: options.db,
+      ...(preparer ? { onHistoryWrite: (workspaceId: number) => void preparer.soon(workspaceId) } : {}),
+    },
+    { logError, reviewRuns },
   );
   return new Promise((resolvePromise, rejectPromise) => {
     const onError = (error: Error) => {

@@ -43,19 +43,12 @@ export interface AppOptions {
   readonly logError?: (message: string, error: unknown) => void;
   /** The registry of review runs (default: one of the app's own); the server shares it with its preparer. */
   readonly reviewRuns?: ReviewRuns;
-  /**
-   * Called after every API request that may have written (any method but GET, HEAD and OPTIONS,
-   * answered below 400); the server's review preparer then prepares the changed histories soon.
-   */
-  readonly onWrite?: () => void;
 }
 
 /** Twice the importer's file limit: a file sent inside a JSON body grows when it is escaped. */
 export const defaultMaximumBodyBytes = 2 * importLimits.maxBytes;
 
 export const apiVersion = "1";
-
-const readOnlyMethods: ReadonlySet<string> = new Set(["GET", "HEAD", "OPTIONS"]);
 
 export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<AppEnv> {
   const maximumBodyBytes = options.maximumBodyBytes ?? defaultMaximumBodyBytes;
@@ -77,12 +70,6 @@ export function createApp(deps: AppDeps, options: AppOptions = {}): OpenAPIHono<
   });
 
   app.use("*", requestId());
-  const onWrite = options.onWrite;
-  if (onWrite)
-    app.use("/api/*", async (c, next) => {
-      await next();
-      if (!readOnlyMethods.has(c.req.method) && c.res.status < 400) onWrite();
-    });
   app.use("*", async (c, next) => {
     await next();
     c.header("X-Request-Id", c.get("requestId"));

@@ -21,6 +21,11 @@ export interface AppEnv {
 /** What createApp is given; passed on to every route module. */
 export interface AppDeps {
   readonly db: Database;
+  /**
+   * Called by the routes that write a workspace's history (an applied import, an experiment
+   * deleted) once the write is committed; the server's review preparer then prepares it soon.
+   */
+  readonly onHistoryWrite?: (workspaceId: number) => void;
 }
 
 export type ApiRouter = OpenAPIHono<AppEnv>;

@@ -47,6 +47,44 @@ export async function readFamilyCounts(
   return familyCounts.map((row) => ({ family: row.family, tests: Number(row.tests) }));
 }
 
+/**
+ * readFamilyCounts at a data version, remembered per database (the last few versions): a review's
+ * identity names its family (the default one when none is asked for), so even a request answered
+ * from the cache needs it, and the history cannot have changed while the version is the same.
+ */
+const familyCountsRemembered = new WeakMap<
+  Database,
+  Map<string, Promise<{ readonly family: string; readonly tests: number }[]>>
+>();
+const familyCountsKept = 64;
+
+export function familyCountsAt(
+  db: Database,
+  workspaceId: number,
+  dataVersion: number,
+): Promise<{ readonly family: string; readonly tests: number }[]> {
+  let remembered = familyCountsRemembered.get(db);
+  if (!remembered) {
+    remembered = new Map();
+    familyCountsRemembered.set(db, remembered);
+  }
+  const key = `${workspaceId}:${dataVersion}`;
+  const found = remembered.get(key);
+  if (found) return found;
+  const counts = readFamilyCounts(db, workspaceId);
+  remembered.set(key, counts);
+  const held = remembered;
+  counts.catch(() => {
+    if (held.get(key) === counts) held.delete(key);
+  });
+  // Oldest first in a Map: drop beyond the bound.
+  for (const oldKey of held.keys()) {
+    if (held.size <= familyCountsKept) break;
+    held.delete(oldKey);
+  }
+  return counts;
+}
+
 /** The family a review without a family filter covers: the one with most primary results. */
 export function defaultReviewFamily(
   families: readonly { readonly family: string; readonly tests: number }[],
@@ -66,7 +104,7 @@ export async function readReviewData(
 ): Promise<ReviewData> {
   const data =
     dataVersion === undefined
-      ? await readFamilyData(db, workspaceId, filters.family)
+      ? await readFamilyData(db, workspaceId, filters.family, await readFamilyCounts(db, workspaceId))
       : await rememberedRead(db, workspaceId, dataVersion, filters.family);
   const filtered = filters.team !== undefined || filters.from !== undefined || filters.to !== undefined;
   const reviewedTests = filtered
@@ -93,21 +131,31 @@ interface FamilyData {
 }
 
 /**
- * The last reads of each database, by workspace, data version and family asked: a workspace's
- * data version changes with every write to its history (database triggers, schema.ts), so a read
- * at the same version is the same rows. The quarterly review flips through teams and quarters of
- * one family; each would read the whole family again (0.3 to 0.6 s at 1e5 tests) without it. At
- * most rememberedTestsKept tests are kept in all, newest first.
+ * The last reads of each database, by workspace, data version and family (the default family
+ * resolved): a workspace's data version changes with every write to its history (database
+ * triggers, schema.ts), so a read at the same version is the same rows. The quarterly review flips
+ * through teams and quarters of one family; each would read the whole family again (0.3 to 0.6 s
+ * at 1e5 tests) without it. A read at a newer version drops the workspace's older ones (they
+ * cannot be asked for again), and at most rememberedTestsKept tests are kept in all, newest used
+ * first.
  */
-const rememberedReads = new WeakMap<Database, Map<string, { tests: number; data: Promise<FamilyData> }>>();
+interface RememberedRead {
+  readonly workspaceId: number;
+  readonly dataVersion: number;
+  tests: number;
+  readonly data: Promise<FamilyData>;
+}
+const rememberedReads = new WeakMap<Database, Map<string, RememberedRead>>();
 export const rememberedTestsKept = 250_000;
 
-function rememberedRead(
+async function rememberedRead(
   db: Database,
   workspaceId: number,
   dataVersion: number,
-  family: string | undefined,
+  familyAsked: string | undefined,
 ): Promise<FamilyData> {
+  const families = await familyCountsAt(db, workspaceId, dataVersion);
+  const family = familyAsked ?? defaultReviewFamily(families);
   let reads = rememberedReads.get(db);
   if (!reads) {
     reads = new Map();
@@ -116,25 +164,35 @@ function rememberedRead(
   const key = JSON.stringify([workspaceId, dataVersion, family ?? null]);
   const found = reads.get(key);
   if (found) {
-    // Newest last: a read used again moves to the end.
+    // Newest used last: a read used again moves to the end.
     reads.delete(key);
     reads.set(key, found);
     return found.data;
   }
-  const entry = { tests: 0, data: readFamilyData(db, workspaceId, family) };
+  const entry: RememberedRead = {
+    workspaceId,
+    dataVersion,
+    tests: 0,
+    data: readFamilyData(db, workspaceId, family, families),
+  };
+  for (const [otherKey, other] of reads)
+    if (other.workspaceId === workspaceId && other.dataVersion < dataVersion) reads.delete(otherKey);
   reads.set(key, entry);
   const held = reads;
   entry.data.then(
     (data) => {
+      if (held.get(key) !== entry) return;
       entry.tests = data.familyTests.length;
-      // Drop the oldest reads beyond the bound (a read larger than the bound is not kept).
+      // Drop the least recently used reads beyond the bound (a read larger than it is not kept).
       let total = 0;
       for (const [otherKey, other] of [...held.entries()].reverse()) {
         total += other.tests;
         if (total > rememberedTestsKept) held.delete(otherKey);
       }
     },
-    () => held.delete(key),
+    () => {
+      if (held.get(key) === entry) held.delete(key);
+    },
   );
   return entry.data;
 }
@@ -143,8 +201,8 @@ async function readFamilyData(
   db: Database,
   workspaceId: number,
   familyAsked: string | undefined,
+  families: readonly { readonly family: string; readonly tests: number }[],
 ): Promise<FamilyData> {
-  const families = await readFamilyCounts(db, workspaceId);
   if (families.length === 0) throw new ReviewDataError("the workspace has no primary results to review");
   const family = familyAsked ?? defaultReviewFamily(families);
   if (!family || !families.some((row) => row.family === family)) {

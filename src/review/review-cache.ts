@@ -39,19 +39,20 @@ export function testsCacheKey(reviewKey: string): string {
 }
 
 /**
- * The key of a review's prior fits (review-fits.ts): the workspace, the SHA-256 fingerprint of the
- * family's rows (every field the fits read is in it) and the fit settings; not the data version,
- * so that writes to other families leave the fits valid.
+ * The key of a review's prior fits (review-fits.ts): the workspace, the observations fitted (every
+ * (y, s) pair of the family's included tests, in order, bit for bit: all the fits read) and the
+ * fit settings; not the data version, so that writes that leave the fitted observations as they
+ * were (other families, names, teams, dates, decisions, realized measurements) keep the fits valid.
  */
 export function reviewFitsCacheKey(
   workspaceId: number,
-  dataFingerprint: string,
+  observations: { readonly y: Float64Array; readonly s: Float64Array },
   fitSettings: unknown,
 ): string {
   return createHash("sha256")
-    .update(
-      `review-fits:v1\nworkspace ${workspaceId}\ndata ${dataFingerprint}\n${JSON.stringify(fitSettings)}`,
-    )
+    .update(`review-fits:v2\nworkspace ${workspaceId}\n${JSON.stringify(fitSettings)}\n`)
+    .update(new Uint8Array(observations.y.buffer, observations.y.byteOffset, observations.y.byteLength))
+    .update(new Uint8Array(observations.s.buffer, observations.s.byteOffset, observations.s.byteLength))
     .digest("hex");
 }
 
@@ -101,10 +102,15 @@ export async function writeCache(
         .onConflictDoUpdate({ target: computationCache.cacheKey, set: { value, kind: entry.kind } });
     }
     // Each kind written keeps only the workspace's newest entries (by first write: an upsert keeps
-    // its place), so that a history written again and again does not grow the cache without end.
+    // its place), so that a history written again and again does not grow the cache without end;
+    // the entries just written are never the ones dropped.
     for (const kind of new Set(entries.map((entry) => entry.kind))) {
       const limit = limits[kind];
       if (!limit) continue;
+      const written = sql.join(
+        entries.filter((entry) => entry.kind === kind).map((entry) => sql`${entry.cacheKey}`),
+        sql`, `,
+      );
       await tx.run(sql`
         delete from ${computationCache}
         where rowid in (
@@ -114,14 +120,15 @@ export async function writeCache(
               sum(octet_length(${computationCache.value})) over (order by rowid desc) as bytes
             from ${computationCache}
             where ${computationCache.workspaceId} = ${workspaceId} and ${computationCache.kind} = ${kind})
-          where newness > 1 and (newness > ${limit.entries} or bytes > ${limit.bytes}))`);
+          where newness > 1 and (newness > ${limit.entries} or bytes > ${limit.bytes}))
+          and ${computationCache.cacheKey} not in (${written})`);
     }
   });
 }
 
 /**
- * What a workspace keeps of each kind: the newest `entries` entries while their total stays
- * within `bytes` (the newest one is always kept). Per-test tables are large (about 500 bytes a
+ * What a workspace keeps of each kind: the newest `entries` entries (by first write) while their
+ * total stays within `bytes`; the newest one and the ones just written are always kept. Per-test tables are large (about 500 bytes a
  * test) and cheap to recompute from cached fits: a few, within 256 MiB, enough for the preparer's
  * reviews of every family of a history of 1e5 tests (review-preparer.ts). Summaries (some ten
  * kilobytes) and fits (some tens) are bounded by count (common practice for caches of

@@ -8,9 +8,9 @@
  * Every `intervalMilliseconds` it reads the data versions (one small query). A version is prepared
  * when it is still: at the first check every version (the server just started), later one that
  * has held still for a whole interval after changing (the CLI's imports are seen this way), or any
- * changed version once the API's writes have settled (soon(), called by the server after each
- * write request; an import is one transaction). Preparing means the summary and the per-test table
- * of each family's default review (unnamed first, as the page opens on it), through the server's
+ * changed version of a workspace once its API writes have settled (soon(), called by the routes
+ * that write a history, through the server; an import is one transaction). Preparing means the summary and the per-test table
+ * of each family's default review (the family the page opens on first), through the server's
  * run registry, so that a request arriving meanwhile joins the run. One workspace at a time, and
  * never two checks at once.
  */
@@ -21,18 +21,19 @@ import { type ReviewRuns, startReviewRun } from "./review-runs.ts";
 import type { ReviewRequest } from "./run-review.ts";
 
 /**
- * What the review page asks for: no settings (it opens on the family with most tests), then each
- * family by name (its family menu). The unnamed and the named default family are two cache
- * entries; the second one reuses the first one's prior fits.
+ * What the review page asks for: each family by name (its family menu), the family with most tests
+ * first (the page opens on it: a review without a family is the same cache entry, run-review.ts).
  */
 async function preparedRequests(db: Database, workspaceId: number): Promise<ReviewRequest[]> {
   const families = await readFamilyCounts(db, workspaceId);
   const first = defaultReviewFamily(families);
   const byName = families.map((row): ReviewRequest => ({ filters: { family: row.family } }));
-  // The page's first family first, then the others by name.
   byName.sort((a, b) => Number(b.filters?.family === first) - Number(a.filters?.family === first));
-  return [{}, ...byName];
+  // A workspace without primary results still gets its (failing) run, which records why.
+  return byName.length > 0 ? byName : [{}];
 }
+
+const noneSettled: ReadonlySet<number> = new Set();
 
 /** Quiet time after the last write before soon()'s check: a client sending batches sends them closer. */
 export const defaultSettleMilliseconds = 2000;
@@ -41,12 +42,12 @@ export interface ReviewPreparer {
   /** One check now (what the timer does); resolves when its preparations are done. */
   check(): Promise<void>;
   /**
-   * A request that may have written to a history has just been answered (an import is one
-   * transaction): once no other write has followed for `settleMilliseconds`, one check treats every
-   * changed version as still and prepares it, instead of waiting for it to be seen twice.
-   * Resolves when that check is done.
+   * A write to the workspace's history has just been committed through the API (an import is one
+   * transaction): once no other such write has followed for `settleMilliseconds`, one check treats
+   * the changed versions of the workspaces written so as still and prepares them, instead of
+   * waiting for them to be seen twice. Resolves when that check is done.
    */
-  soon(): Promise<void>;
+  soon(workspaceId: number): Promise<void>;
   stop(): void;
 }
 
@@ -87,7 +88,7 @@ export function startReviewPreparer(options: {
     options.onPrepared?.(workspaceId, version, computed, requests.length);
   }
 
-  async function checkOnce(settled: boolean): Promise<void> {
+  async function checkOnce(settled: ReadonlySet<number>): Promise<void> {
     const rows = await db
       .select({ workspaceId: dataVersions.workspaceId, version: dataVersions.version })
       .from(dataVersions);
@@ -95,47 +96,58 @@ export function startReviewPreparer(options: {
     for (const { workspaceId, version } of rows) {
       if (stopped) return;
       // At the first check (the server just started) no import is under way: every version counts
-      // as still, and a review already cached is only looked up. After writes have settled
-      // (soon()), a changed version counts as still too.
-      const still = firstCheck || settled || seen.get(workspaceId) === version;
+      // as still, and a review already cached is only looked up. After its API writes have
+      // settled (soon()), a workspace's changed version counts as still too.
+      const still = firstCheck || settled.has(workspaceId) || seen.get(workspaceId) === version;
       seen.set(workspaceId, version);
       if (still && prepared.get(workspaceId) !== version) await prepare(workspaceId, version);
     }
   }
 
   function check(): Promise<void> {
-    checking ??= checkOnce(false).finally(() => {
+    checking ??= checkOnce(noneSettled).finally(() => {
       checking = null;
     });
     return checking;
   }
 
+  // One pending settle: its timer (restarted by every write), the workspaces written, and one
+  // promise for every caller until its check is done.
   let settleTimer: NodeJS.Timeout | null = null;
-  let settleWaiters: (() => void)[] = [];
-  async function settledCheck(): Promise<void> {
-    // After a check under way (it may have begun before the write), one that counts writes as settled.
+  let settleWorkspaces = new Set<number>();
+  let settleDone: { promise: Promise<void>; resolve: () => void } | null = null;
+
+  async function settledCheck(workspaces: ReadonlySet<number>): Promise<void> {
+    // After a check under way (it may have begun before the write), one that counts them as settled.
     while (checking) await checking.catch(() => undefined);
     if (stopped) return;
-    checking = checkOnce(true).finally(() => {
+    checking = checkOnce(workspaces).finally(() => {
       checking = null;
     });
     await checking.catch(() => undefined);
   }
 
-  function soon(): Promise<void> {
+  function soon(workspaceId: number): Promise<void> {
     if (stopped) return Promise.resolve();
+    settleWorkspaces.add(workspaceId);
+    if (!settleDone) {
+      let resolve: () => void = () => undefined;
+      const promise = new Promise<void>((settle) => {
+        resolve = settle;
+      });
+      settleDone = { promise, resolve };
+    }
+    const pending = settleDone;
     if (settleTimer) clearTimeout(settleTimer);
-    const done = new Promise<void>((resolve) => settleWaiters.push(resolve));
     settleTimer = setTimeout(() => {
       settleTimer = null;
-      const waiters = settleWaiters;
-      settleWaiters = [];
-      void settledCheck().finally(() => {
-        for (const resolve of waiters) resolve();
-      });
+      const workspaces = settleWorkspaces;
+      settleWorkspaces = new Set();
+      settleDone = null;
+      void settledCheck(workspaces).finally(pending.resolve);
     }, options.settleMilliseconds ?? defaultSettleMilliseconds);
     settleTimer.unref();
-    return done;
+    return pending.promise;
   }
 
   function schedule(): void {
@@ -157,8 +169,8 @@ export function startReviewPreparer(options: {
       stopped = true;
       if (timer) clearTimeout(timer);
       if (settleTimer) clearTimeout(settleTimer);
-      for (const resolve of settleWaiters) resolve();
-      settleWaiters = [];
+      settleDone?.resolve();
+      settleDone = null;
     },
   };
 }

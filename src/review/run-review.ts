@@ -7,13 +7,14 @@
 import type { Database } from "../db/client.ts";
 import { StatsInputError } from "../stats/errors.ts";
 import type { FitFamily } from "../stats/fit-effect-prior.ts";
+import { observationColumns } from "../stats/fit-effect-prior.ts";
 import { defaultThetaGridPointCount } from "../stats/prior-grid.ts";
 import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
 import { createRandom } from "../stats/random.ts";
 import { posteriorColumnsOnThreadsNow, probabilityAboveOnThreadsNow } from "../threads/posterior-threads.ts";
 import { posteriorSumsOnThreads } from "../threads/sums-threads.ts";
 import { pauseForRequests } from "./pause-for-requests.ts";
-import { readReviewData } from "./read-review-data.ts";
+import { defaultReviewFamily, familyCountsAt, readReviewData } from "./read-review-data.ts";
 import {
   cacheHas,
   readCache,
@@ -125,8 +126,16 @@ export async function reviewIdentity(
   workspaceId: number,
   request: ReviewRequest,
 ): Promise<ReviewIdentity> {
-  const settings = resolveReviewSettings(request);
+  const asked = resolveReviewSettings(request);
   const dataVersion = await storedDataVersion(db, workspaceId);
+  // The family is always named: a request without one is the request for the default family (the
+  // one with most primary results at this version), one cache entry and one computation for both.
+  const family =
+    asked.filters.family ?? defaultReviewFamily(await familyCountsAt(db, workspaceId, dataVersion));
+  const settings =
+    family === undefined || asked.filters.family !== undefined
+      ? asked
+      : { ...asked, filters: resolveFilters({ ...request.filters, family }) };
   const bootstrapAsked = request.bootstrap !== undefined;
   return {
     settings,
@@ -192,7 +201,7 @@ export async function runReview(
     bootstrapAsked,
     seed: settings.seed,
   };
-  const fitsKey = reviewFitsCacheKey(workspaceId, data.fingerprint, fitSettings);
+  const fitsKey = reviewFitsCacheKey(workspaceId, observationColumns(observations), fitSettings);
   const cachedFits = await readCacheText(db, fitsKey, reviewFitsCacheKind);
   let fits: ReviewFits;
   if (cachedFits !== null) {

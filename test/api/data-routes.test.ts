@@ -228,32 +228,46 @@ describe("imports", () => {
   });
 });
 
-describe("the write hook (the server's review preparer listens to it)", () => {
-  it("is called after an accepted import, not after a read or a rejected request", async () => {
-    let writes = 0;
-    const hooked = createApp({ db: handle.db }, { onWrite: () => writes++ });
+describe("the history write hook (the server's review preparer listens to it)", () => {
+  it("is called with the workspace after an applied import or a deletion, not after a read, a dry run or a rejected import", async () => {
+    const writes: number[] = [];
+    const hooked = createApp({ db: handle.db, onHistoryWrite: (workspaceId) => writes.push(workspaceId) });
     const header =
       "experiment,name,team,metric,metric_kind,direction,started_on,ended_on,decision,is_aa,stopped_early,lift,lift_se,primary";
-    const send = (row: string) =>
-      hooked.request("/api/v1/imports?fileName=hook.csv", {
+    const send = (row: string, query = "") =>
+      hooked.request(`/api/v1/imports?fileName=hook.csv${query}`, {
         method: "POST",
         headers: { authorization: `Bearer ${beta.tokens.write}`, "content-type": "text/csv" },
         body: `${header}\n${row}\n`,
       });
+    const goodRow =
+      "hook-001,Hook,growth,signup,binary,increase,2024-02-01,2024-02-14,shipped,no,no,0.02,0.01,yes";
     const read = await hooked.request("/api/v1/experiments", {
       headers: { authorization: `Bearer ${beta.tokens.read}` },
     });
     expect(read.status).toBe(200);
-    expect(writes).toBe(0);
     const rejected = await send(
       "hook-002,Hook,growth,signup,binary,increase,2024-02-01,2024-02-14,maybe,no,no,0.02,0.01,yes",
     );
     expect(rejected.status).toBe(422);
-    expect(writes).toBe(0);
-    const accepted = await send(
-      "hook-001,Hook,growth,signup,binary,increase,2024-02-01,2024-02-14,shipped,no,no,0.02,0.01,yes",
-    );
+    const dryRun = await send(goodRow, "&dryRun=true");
+    expect(await dryRun.json()).toMatchObject({ outcome: "dry_run" });
+    // A computation that writes nothing (a review run) does not call it either.
+    const run = await hooked.request("/api/v1/review/runs", {
+      method: "POST",
+      headers: { authorization: `Bearer ${beta.tokens.read}`, "content-type": "application/json" },
+      body: "{}",
+    });
+    expect(run.status).toBeLessThan(500);
+    expect(writes).toEqual([]);
+    const accepted = await send(goodRow);
     expect(accepted.status).toBe(200);
-    expect(writes).toBe(1);
+    expect(writes).toEqual([beta.id]);
+    const deleted = await hooked.request("/api/v1/experiments/hook-001", {
+      method: "DELETE",
+      headers: { authorization: `Bearer ${beta.tokens.write}` },
+    });
+    expect(deleted.status).toBe(200);
+    expect(writes).toEqual([beta.id, beta.id]);
   });
 });

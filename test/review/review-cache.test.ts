@@ -106,6 +106,24 @@ describe("review cache", () => {
       limits,
     );
     expect(await keys(reviewTestsCacheKind)).toEqual(["huge:tests"]);
+    // An entry rewritten in place keeps its first-write place, and is kept by the write itself even
+    // when it is older than another entry and now over the bound.
+    for (const key of ["first:tests", "second:tests"])
+      await writeCache(
+        handle.db,
+        id,
+        [{ cacheKey: key, kind: reviewTestsCacheKind, json: table(7) }],
+        limits,
+      );
+    expect(await keys(reviewTestsCacheKind)).toEqual(["first:tests", "second:tests"]);
+    await writeCache(
+      handle.db,
+      id,
+      [{ cacheKey: "first:tests", kind: reviewTestsCacheKind, json: JSON.stringify(["z".repeat(5000)]) }],
+      limits,
+    );
+    expect(await keys(reviewTestsCacheKind)).toEqual(["first:tests", "second:tests"]);
+    expect(await readCache(handle.db, "first:tests", reviewTestsCacheKind)).toEqual(["z".repeat(5000)]);
     // Kinds not written are left alone, and so are other workspaces' entries.
     await writeCache(handle.db, id, [{ cacheKey: "fits-1", kind: reviewFitsCacheKind, json: "{}" }], limits);
     expect(await keys(reviewCacheKind)).toEqual(["b-2", "b-3", "b-4"]);

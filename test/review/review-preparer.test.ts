@@ -54,7 +54,7 @@ describe("startReviewPreparer", () => {
       // Every family: its review (as the page's family menu asks for it) is cached too.
       const families = await readFamilyCounts(handle.db, workspaceId);
       expect(families.length).toBeGreaterThan(1);
-      expect(prepared[0]?.reviews).toBe(families.length + 1);
+      expect(prepared[0]?.reviews).toBe(families.length);
       for (const { family } of families) {
         const review = await runReview(
           handle.db,
@@ -102,16 +102,16 @@ describe("startReviewPreparer", () => {
       expect(prepared[1]?.version).toBeGreaterThan(prepared[0]?.version as number);
       expect(prepared[1]?.computed).toBe(true);
 
-      // After a write through the API the server calls soon(): once writes settle, one check
-      // prepares the changed version without seeing it twice. Two writes in a row prepare once.
+      // After a write through the API the server calls soon(workspace): once writes settle, one
+      // check prepares the changed version without seeing it twice. Two writes in a row prepare once.
       for (const suffix of [" (again)", " (and again)"]) {
         await handle.db
           .update(experiments)
           .set({ name: sql`${experiments.name} || ${suffix}` })
           .where(eq(experiments.id, first?.id as number));
-        void preparer.soon();
+        void preparer.soon(workspaceId);
       }
-      await preparer.soon();
+      await preparer.soon(workspaceId);
       expect(prepared).toHaveLength(3);
       expect(prepared[2]?.version).toBeGreaterThan(prepared[1]?.version as number);
       expect(prepared[2]?.computed).toBe(true);

@@ -1,9 +1,10 @@
-import { eq } from "drizzle-orm";
+import { and, eq } from "drizzle-orm";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import {
   computationCache,
   dataVersions,
   experiments,
+  metrics,
   results,
   reviews,
   workspaces,
@@ -283,4 +284,64 @@ describe("cached prior fits", () => {
     expect(back.fit.optimalityGap).toBeNaN();
     expect(back).toEqual(fits);
   });
+});
+
+describe("a review without a family", () => {
+  it("is the review of the family with most primary results, by name: one cache entry for both", async () => {
+    const unnamed = await runReview(handle.db, workspaceId, { seed: 41 });
+    const family = unnamed.summary.metricFamily;
+    const most = [...unnamed.summary.families].sort((a, b) => b.tests - a.tests)[0]?.family;
+    expect(family).toBe(most);
+    expect(unnamed.summary.settings.filters.family).toBe(family);
+    const named = await runReview(handle.db, workspaceId, { filters: { family }, seed: 41 });
+    expect(named.cached).toBe(true);
+    expect(named.cacheKey).toBe(unnamed.cacheKey);
+    expect(named.summary).toEqual(unnamed.summary);
+  }, 120_000);
+});
+
+describe("the prior fits' cache", () => {
+  it("survives a write that leaves the fitted observations as they were, and not one that changes them", async () => {
+    const request = { filters: { family: "conversion" }, seed: 43 };
+    await runReview(handle.db, workspaceId, request);
+    const [experiment] = await handle.db
+      .select({ id: experiments.id, name: experiments.name })
+      .from(experiments)
+      .where(eq(experiments.workspaceId, workspaceId))
+      .limit(1);
+    await handle.db
+      .update(experiments)
+      .set({ name: `${experiment?.name} (renamed)` })
+      .where(eq(experiments.id, experiment?.id as number));
+    const progress: string[] = [];
+    const renamed = await runReview(handle.db, workspaceId, request, {
+      onProgress: (message) => progress.push(message),
+    });
+    // A new data version: the review is computed again, on the cached fits.
+    expect(renamed.cached).toBe(false);
+    expect(progress.some((message) => message.startsWith("reusing the prior"))).toBe(true);
+    // An included test of the family: primary, not A/A, no sample ratio mismatch.
+    const [result] = await handle.db
+      .select({ id: results.id, lift: results.lift })
+      .from(results)
+      .innerJoin(experiments, eq(results.experimentId, experiments.id))
+      .innerJoin(metrics, eq(results.metricId, metrics.id))
+      .where(
+        and(
+          eq(experiments.workspaceId, workspaceId),
+          eq(metrics.family, "conversion"),
+          eq(results.isPrimary, true),
+          eq(results.srmFlagged, false),
+          eq(experiments.isAa, false),
+        ),
+      )
+      .limit(1);
+    await handle.db
+      .update(results)
+      .set({ lift: (result?.lift as number) + 0.001 })
+      .where(eq(results.id, result?.id as number));
+    const refitted: string[] = [];
+    await runReview(handle.db, workspaceId, request, { onProgress: (message) => refitted.push(message) });
+    expect(refitted.some((message) => message.startsWith("fitting the prior"))).toBe(true);
+  }, 120_000);
 });

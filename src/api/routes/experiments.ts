@@ -119,7 +119,7 @@ function toView(row: typeof experiments.$inferSelect): z.infer<typeof Experiment
   };
 }
 
-export function experimentsRoutes({ db }: AppDeps): ApiRouter {
+export function experimentsRoutes({ db, onHistoryWrite }: AppDeps): ApiRouter {
   async function findExperiment(workspaceId: number, key: string) {
     const [row] = await db
       .select()
@@ -238,6 +238,7 @@ export function experimentsRoutes({ db }: AppDeps): ApiRouter {
         const experiment = await findExperiment(auth.workspaceId, key);
         // Results and realized measurements go with it (foreign keys cascade).
         await db.delete(experiments).where(eq(experiments.id, experiment.id));
+        onHistoryWrite?.(auth.workspaceId);
         return c.json(toView(experiment), 200);
       },
     );

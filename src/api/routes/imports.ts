@@ -108,7 +108,7 @@ function toLogEntry(row: typeof imports.$inferSelect): z.infer<typeof ImportLogE
   };
 }
 
-export function importsRoutes({ db }: AppDeps): ApiRouter {
+export function importsRoutes({ db, onHistoryWrite }: AppDeps): ApiRouter {
   return new OpenAPIHono<AppEnv>()
     .openapi(
       createRoute({
@@ -165,6 +165,7 @@ export function importsRoutes({ db }: AppDeps): ApiRouter {
         const imported = await importFile(db, request);
         const report = { ...imported, errors: [...imported.errors], notes: [...imported.notes] };
         if (report.outcome === "rejected") return c.json(rejectedImportBody(report), 422);
+        if (report.outcome === "applied") onHistoryWrite?.(auth.workspaceId);
         return c.json(report, 200);
       },
     )
