@@ -120,4 +120,21 @@ describe("startReviewPreparer", () => {
       preparer.stop();
     }
   }, 120_000);
+
+  it("settles a pending soon() when stopped, and ignores soon() after", async () => {
+    const runs = apiReviewRuns(() => undefined);
+    const prepared: number[] = [];
+    const preparer = startReviewPreparer({
+      db: handle.db,
+      runs,
+      intervalMilliseconds: 3_600_000,
+      settleMilliseconds: 60_000,
+      onPrepared: (_workspace, version) => prepared.push(version),
+    });
+    const pending = preparer.soon(workspaceId);
+    preparer.stop();
+    await pending;
+    await preparer.soon(workspaceId);
+    expect(prepared).toEqual([]);
+  });
 });
