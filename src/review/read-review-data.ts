@@ -63,11 +63,7 @@ export function familyCountsAt(
   workspaceId: number,
   dataVersion: number,
 ): Promise<{ readonly family: string; readonly tests: number }[]> {
-  let remembered = familyCountsRemembered.get(db);
-  if (!remembered) {
-    remembered = new Map();
-    familyCountsRemembered.set(db, remembered);
-  }
+  const remembered = mapOf(familyCountsRemembered, db);
   const key = `${workspaceId}:${dataVersion}`;
   const found = remembered.get(key);
   if (found) return found;
@@ -83,6 +79,16 @@ export function familyCountsAt(
     held.delete(oldKey);
   }
   return counts;
+}
+
+/** A database's own map in a per-database memo (made on first use). */
+function mapOf<K, V>(memo: WeakMap<Database, Map<K, V>>, db: Database): Map<K, V> {
+  let map = memo.get(db);
+  if (!map) {
+    map = new Map();
+    memo.set(db, map);
+  }
+  return map;
 }
 
 /** The family a review without a family filter covers: the one with most primary results. */
@@ -156,11 +162,7 @@ async function rememberedRead(
 ): Promise<FamilyData> {
   const families = await familyCountsAt(db, workspaceId, dataVersion);
   const family = familyAsked ?? defaultReviewFamily(families);
-  let reads = rememberedReads.get(db);
-  if (!reads) {
-    reads = new Map();
-    rememberedReads.set(db, reads);
-  }
+  const reads = mapOf(rememberedReads, db);
   const key = JSON.stringify([workspaceId, dataVersion, family ?? null]);
   const found = reads.get(key);
   if (found) {

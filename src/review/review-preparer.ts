@@ -27,10 +27,10 @@ import type { ReviewRequest } from "./run-review.ts";
 async function preparedRequests(db: Database, workspaceId: number): Promise<ReviewRequest[]> {
   const families = await readFamilyCounts(db, workspaceId);
   const first = defaultReviewFamily(families);
-  const byName = families.map((row): ReviewRequest => ({ filters: { family: row.family } }));
-  byName.sort((a, b) => Number(b.filters?.family === first) - Number(a.filters?.family === first));
   // A workspace without primary results still gets its (failing) run, which records why.
-  return byName.length > 0 ? byName : [{}];
+  if (first === undefined) return [{}];
+  const others = families.map((row) => row.family).filter((family) => family !== first);
+  return [first, ...others].map((family) => ({ filters: { family } }));
 }
 
 const noneSettled: ReadonlySet<number> = new Set();

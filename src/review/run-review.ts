@@ -6,8 +6,7 @@
  */
 import type { Database } from "../db/client.ts";
 import { StatsInputError } from "../stats/errors.ts";
-import type { FitFamily } from "../stats/fit-effect-prior.ts";
-import { observationColumns } from "../stats/fit-effect-prior.ts";
+import { type FitFamily, observationColumns } from "../stats/fit-effect-prior.ts";
 import { defaultThetaGridPointCount } from "../stats/prior-grid.ts";
 import { type ProgramReview, programReview, type ReviewTestRow } from "../stats/program-review.ts";
 import { createRandom } from "../stats/random.ts";

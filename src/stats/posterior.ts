@@ -134,12 +134,15 @@ export function posteriorProbabilityAbove(
   threshold: number,
 ): number {
   validateResult(y, s);
+  requireThreshold(threshold);
+  const out = new Float64Array(1);
+  writeProbabilityAboveRows(prior, [y], [s], threshold, out, 0, 1);
+  return out[0] as number;
+}
+
+function requireThreshold(threshold: number): void {
   requireFinite("threshold", threshold);
   if (threshold < 0) throw new StatsInputError("threshold", "at least 0", threshold);
-  const prepared = preparePrior(prior);
-  const workspace = createWorkspace(prepared.count);
-  fillPosterior(prepared, y, s, workspace);
-  return clampProbability(mixtureUpperTail(workspace, threshold));
 }
 
 /**
@@ -165,8 +168,7 @@ export function validateProbabilityAboveInputs(
   threshold: number,
 ): void {
   validatePosteriorInputs(y, s, defaultCredibleLevel);
-  requireFinite("threshold", threshold);
-  if (threshold < 0) throw new StatsInputError("threshold", "at least 0", threshold);
+  requireThreshold(threshold);
 }
 
 /**

@@ -57,17 +57,27 @@ function randomPrior(random: ReturnType<typeof createRandom>): EffectPrior {
   };
 }
 
+/** A random prior and four results, the last one far in the tails. */
+function randomCase(random: ReturnType<typeof createRandom>): {
+  prior: EffectPrior;
+  y: Float64Array;
+  s: Float64Array;
+} {
+  const prior = randomPrior(random);
+  const y = Float64Array.from({ length: 4 }, (_, i) =>
+    i === 3 ? 0.3 * random.normal() : 0.04 * random.normal(),
+  );
+  const s = Float64Array.from({ length: 4 }, () => 0.002 + 0.03 * random.uniform());
+  return { prior, y, s };
+}
+
 describe("posteriorProbabilityColumns", () => {
   it("matches posteriorOf and posteriorProbabilityAbove on 400 random cases", () => {
     const random = createRandom(20261202);
     const thresholds = [0, 0.005, 0.02];
     let compared = 0;
     for (let trial = 0; trial < 100; trial++) {
-      const prior = randomPrior(random);
-      const y = Float64Array.from({ length: 4 }, (_, i) =>
-        i === 3 ? 0.3 * random.normal() : 0.04 * random.normal(),
-      );
-      const s = Float64Array.from({ length: 4 }, () => 0.002 + 0.03 * random.uniform());
+      const { prior, y, s } = randomCase(random);
       const columns = posteriorProbabilityColumns(prior, y, s, thresholds);
       for (let i = 0; i < y.length; i++) {
         const yi = y[i] as number;
@@ -113,11 +123,7 @@ describe("posteriorProbabilityAboveColumn", () => {
     const random = createRandom(20261204);
     let compared = 0;
     for (let trial = 0; trial < 100; trial++) {
-      const prior = randomPrior(random);
-      const y = Float64Array.from({ length: 4 }, (_, i) =>
-        i === 3 ? 0.3 * random.normal() : 0.04 * random.normal(),
-      );
-      const s = Float64Array.from({ length: 4 }, () => 0.002 + 0.03 * random.uniform());
+      const { prior, y, s } = randomCase(random);
       for (const threshold of [0, 0.005, 0.02]) {
         const column = posteriorProbabilityAboveColumn(prior, y, s, threshold);
         const batch = posteriorProbabilityColumns(prior, y, s, [threshold]).probAbove[0] as Float64Array;
